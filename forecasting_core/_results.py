@@ -637,6 +637,9 @@ class Hindcast:
         ``"refit at every origin"`` or a labelled shortcut.
     verdict : str
         One sentence: whether and by how much the chosen model beats the last value.
+    skipped : tuple of str
+        Refits that were rejected (or could not forecast) at an origin, left out of the
+        scores: one plain sentence each, naming the model and the origin.
     """
 
     origins: tuple[str, ...]
@@ -645,6 +648,7 @@ class Hindcast:
     errors: pd.DataFrame = field(repr=False)
     method: str = "refit at every origin"
     verdict: str = ""
+    skipped: tuple[str, ...] = ()
 
     def score(self, model: str) -> SkillScore | None:
         return next((s for s in self.scores if s.model == model), None)
@@ -660,6 +664,7 @@ class Hindcast:
                 "method": self.method,
                 "scores": [s.to_dict() for s in self.scores],
                 "verdict": self.verdict,
+                "skipped": list(self.skipped),
             }
         )
 
