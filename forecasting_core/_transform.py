@@ -70,7 +70,9 @@ def _require_positive(y: Any, what: str) -> None:
     bad = np.flatnonzero(~np.isnan(v) & (v <= 0))
     if bad.size:
         i = int(bad[0])
-        raise InputError(f"{what} needs values above 0. Got {float(v[i])!r} {_where(y, i)} instead.")
+        raise InputError(
+            f"{what} needs values above 0. Got {float(v[i])!r} {_where(y, i)} instead."
+        )
 
 
 def _check_lambda(lam: float | None) -> float:
@@ -131,7 +133,9 @@ def guerrero_lambda(y: ArrayLike, period: int = 2) -> float:
     _require_positive(y, "Box-Cox transform")
     v = _values(y).ravel()
     groups = len(v) // period
-    blocks = v[len(v) - groups * period :].reshape(groups, period) if groups else np.empty((0, period))
+    blocks = (
+        v[len(v) - groups * period :].reshape(groups, period) if groups else np.empty((0, period))
+    )
     means, sds = [], []
     for block in blocks:
         obs = block[~np.isnan(block)]
@@ -237,7 +241,9 @@ def choose_transform(y: ArrayLike, method: str = "auto") -> TransformSpec:
     TransformSpec
     """
     if method not in METHODS:
-        raise InputError(f"transform must be one of {', '.join(map(repr, METHODS))}. Got {method!r} instead.")
+        raise InputError(
+            f"transform must be one of {', '.join(map(repr, METHODS))}. Got {method!r} instead."
+        )
     if method == "none":
         return TransformSpec("none", None, "chosen by the user")
     if method == "log":
@@ -246,30 +252,40 @@ def choose_transform(y: ArrayLike, method: str = "auto") -> TransformSpec:
     period = _default_period(y)
     if method == "boxcox":
         lam = guerrero_lambda(y, period)
-        return TransformSpec("boxcox", lam, f"chosen by the user; lambda {lam:.3f} by Guerrero's method "
-                             f"(subseries of {period})")
+        return TransformSpec(
+            "boxcox",
+            lam,
+            f"chosen by the user; lambda {lam:.3f} by Guerrero's method (subseries of {period})",
+        )
     v = _values(y).ravel()
     bad = np.flatnonzero(~np.isnan(v) & (v <= 0))
     if bad.size:
         i = int(bad[0])
         return TransformSpec(
-            "none", None,
+            "none",
+            None,
             f"automatic: no transform, because the series has a value at or below 0 "
             f"({float(v[i])!r} {_where(y, i)}), so a log is impossible",
         )
     try:
         lam = guerrero_lambda(y, period)
     except InputError:
-        return TransformSpec("none", None, "automatic: no transform, too few values to judge how the spread "
-                             "changes with the level")
+        return TransformSpec(
+            "none",
+            None,
+            "automatic: no transform, too few values to judge how the spread "
+            "changes with the level",
+        )
     if lam < AUTO_LOG_BELOW:
         return TransformSpec(
-            "log", None,
+            "log",
+            None,
             f"automatic: log, because all values are above 0 and the spread grows with the level "
             f"(Guerrero lambda {lam:.2f}, below {AUTO_LOG_BELOW})",
         )
     return TransformSpec(
-        "none", None,
+        "none",
+        None,
         f"automatic: no transform, because the spread does not grow with the level "
         f"(Guerrero lambda {lam:.2f}, at or above {AUTO_LOG_BELOW})",
     )
@@ -303,7 +319,9 @@ def transform_series(y: ArrayLike, spec: TransformSpec) -> ArrayLike:
         lam = _check_lambda(spec.lam)
         _require_positive(y, "Box-Cox transform")
         return _like(y, _boxcox(v, lam))
-    raise InputError(f"transform must be one of 'none', 'log', 'boxcox'. Got {spec.name!r} instead.")
+    raise InputError(
+        f"transform must be one of 'none', 'log', 'boxcox'. Got {spec.name!r} instead."
+    )
 
 
 def back_transform(z: ArrayLike | float, spec: TransformSpec) -> ArrayLike | float:
@@ -334,14 +352,22 @@ def back_transform(z: ArrayLike | float, spec: TransformSpec) -> ArrayLike | flo
         else:
             base = lam * v + 1.0
             with np.errstate(divide="ignore", invalid="ignore"):
-                out = np.where(base > 0, np.power(np.where(base > 0, base, 1.0), 1.0 / lam), 0.0 if lam > 0 else np.inf)
+                out = np.where(
+                    base > 0,
+                    np.power(np.where(base > 0, base, 1.0), 1.0 / lam),
+                    0.0 if lam > 0 else np.inf,
+                )
             out = np.where(np.isnan(v), np.nan, out)
     else:
-        raise InputError(f"transform must be one of 'none', 'log', 'boxcox'. Got {spec.name!r} instead.")
+        raise InputError(
+            f"transform must be one of 'none', 'log', 'boxcox'. Got {spec.name!r} instead."
+        )
     return _like(z, np.asarray(out, dtype=float))
 
 
-def mean_back_transform(mu: ArrayLike | float, var: ArrayLike | float, spec: TransformSpec) -> ArrayLike | float:
+def mean_back_transform(
+    mu: ArrayLike | float, var: ArrayLike | float, spec: TransformSpec
+) -> ArrayLike | float:
     """Bias-adjusted mean on the original scale of a normal(mu, var) on the transformed scale.
 
     - none: ``mu``;
@@ -378,5 +404,7 @@ def mean_back_transform(mu: ArrayLike | float, var: ArrayLike | float, spec: Tra
             safe = np.where(base > 0, base, np.nan)
             out = np.power(safe, 1.0 / lam) * (1.0 + s2 * (1.0 - lam) / (2.0 * safe**2))
     else:
-        raise InputError(f"transform must be one of 'none', 'log', 'boxcox'. Got {spec.name!r} instead.")
+        raise InputError(
+            f"transform must be one of 'none', 'log', 'boxcox'. Got {spec.name!r} instead."
+        )
     return _like(mu, np.asarray(out, dtype=float))

@@ -101,7 +101,9 @@ def whiting(rng: np.random.Generator) -> np.ndarray:
     return np.exp(logy)
 
 
-def survey(rng: np.random.Generator, mean: float, phi: float, sigma: float, gaps: list[int]) -> np.ndarray:
+def survey(
+    rng: np.random.Generator, mean: float, phi: float, sigma: float, gaps: list[int]
+) -> np.ndarray:
     y = np.exp(np.log(mean) + _ar1(len(SURVEY_YEARS), phi, sigma, rng))
     y[np.isin(SURVEY_YEARS, gaps)] = np.nan
     return y
@@ -130,16 +132,22 @@ def _cell(value: float, decimals: int) -> str:
     return "" if np.isnan(value) else f"{value:.{decimals}f}"
 
 
-def write_wide(path: Path, years: np.ndarray, columns: dict[str, np.ndarray], decimals: int) -> None:
+def write_wide(
+    path: Path, years: np.ndarray, columns: dict[str, np.ndarray], decimals: int
+) -> None:
     lines = [",".join(["year", *columns])]
     for i, year in enumerate(years):
         lines.append(",".join([str(int(year)), *(_cell(v[i], decimals) for v in columns.values())]))
     path.write_text("\n".join(lines) + "\n", encoding="utf-8", newline="\n")
 
 
-def write_long(path: Path, series: str, months: list[str], values: np.ndarray, unit: str, decimals: int) -> None:
+def write_long(
+    path: Path, series: str, months: list[str], values: np.ndarray, unit: str, decimals: int
+) -> None:
     lines = ["series,month,value,unit"]
-    lines.extend(f"{series},{m},{_cell(v, decimals)},{unit}" for m, v in zip(months, values, strict=True))
+    lines.extend(
+        f"{series},{m},{_cell(v, decimals)},{unit}" for m, v in zip(months, values, strict=True)
+    )
     path.write_text("\n".join(lines) + "\n", encoding="utf-8", newline="\n")
 
 
@@ -155,7 +163,10 @@ def main() -> None:
     write_wide(HERE / f"{PLACE}_landings.csv", YEARS, landings, 1)
     keep = YEARS <= VINTAGE_END
     write_wide(
-        HERE / f"{PLACE}_landings_{VINTAGE_END}.csv", YEARS[keep], {k: v[keep] for k, v in landings.items()}, 1
+        HERE / f"{PLACE}_landings_{VINTAGE_END}.csv",
+        YEARS[keep],
+        {k: v[keep] for k, v in landings.items()},
+        1,
     )
     cpue = {
         "hake_kg_per_tow": survey(_rng(5), 38.0, 0.5, 0.20, [1991, 2003, 2004, 2020]),
@@ -164,7 +175,10 @@ def main() -> None:
     write_wide(HERE / f"{PLACE}_survey_cpue.csv", SURVEY_YEARS, cpue, 2)
     write_long(HERE / f"{PLACE}_squid_monthly.csv", "squid", SQUID_MONTHS, squid(_rng(7)), "t", 1)
     write_wide(
-        HERE / f"{PLACE}_sea_temperature.csv", YEARS, {"sea_temp_anomaly_degC": sea_temperature(_rng(8))}, 2
+        HERE / f"{PLACE}_sea_temperature.csv",
+        YEARS,
+        {"sea_temp_anomaly_degC": sea_temperature(_rng(8))},
+        2,
     )
 
 
