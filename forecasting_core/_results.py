@@ -293,6 +293,9 @@ class StationarityTest:
         The null hypothesis in words.
     rejected : bool
         Null rejected at 5%.
+    pvalue_bound : {"at most", "at least"} or None
+        Set when the statistic lies outside the tabulated range (KPSS): the true p-value is
+        at most (or at least) ``pvalue``. None when ``pvalue`` is interpolated or exact.
     """
 
     test: str
@@ -305,6 +308,7 @@ class StationarityTest:
     critical_values: Mapping[str, float]
     null: str
     rejected: bool
+    pvalue_bound: str | None = None
 
     def to_dict(self) -> dict[str, Any]:
         return _clean(
@@ -319,6 +323,7 @@ class StationarityTest:
                 "critical_values": dict(self.critical_values),
                 "null": self.null,
                 "rejected_at_5pct": self.rejected,
+                "pvalue_bound": self.pvalue_bound,
             }
         )
 
