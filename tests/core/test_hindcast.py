@@ -1,0 +1,185 @@
+"""Hindcast (rolling origin) and skill scores.
+
+Sources: MASE as defined by Hyndman & Koehler (2006), "Another look at measures of forecast
+accuracy", IJF 22, eq. for q_t (errors scaled by the in-sample MAE of the naive method);
+interval score as defined by Gneiting & Raftery (2007), JASA 102, section 6.2; benchmark
+bands as in Hyndman & Athanasopoulos, FPP3 section 5.5. Values below are worked by hand.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+import numpy as np
+import pandas as pd
+import pytest
+from scipy.stats import norm
+
+import forecasting_core._forecast as forecast_mod
+import forecasting_core._search as search_mod
+from forecasting_core._benchmarks import fit_benchmark, fit_benchmarks
+from forecasting_core._hindcast import interval_score, naive_scale, run_hindcast
+from forecasting_core._results import Candidate, InputError, TransformSpec
+
+Y8 = pd.Series(
+    [10.0, 12.0, 11.0, 15.0, 14.0, 17.0, 13.0, 16.0],
+    index=pd.period_range("2001", periods=8, freq="Y"),
+)
+
+
+def test_interval_score_matches_hand_computation_on_five_points():
+    # Gneiting & Raftery (2007) 6.2, alpha = 0.2 (80% band), 2/alpha = 10, every width 2:
+    #   x=2 in [1,3]: 2;  x=5 > 4: 2 + 10*1 = 12;  x=2 < 3: 2 + 10*1 = 12;
+    #   x=6 = hi 6 (inside): 2;  x=9 > 7: 2 + 10*2 = 22.
+    lo = np.array([1.0, 2.0, 3.0, 4.0, 5.0])
+    hi = lo + 2.0
+    x = np.array([2.0, 5.0, 2.0, 6.0, 9.0])
+    scores = interval_score(lo, hi, x, alpha=0.2)
+    np.testing.assert_allclose(scores, [2, 12, 12, 2, 22])
+    assert scores.mean() == pytest.approx(10.0)
+
+
+def test_mase_mae_rmse_match_hand_computation_on_five_forecasts():
+    # Last-value benchmark, origins 2005, 2006, 2007, horizon 2 -> five scored forecasts.
+    #  origin 2005: train 10 12 11 15 14, forecast 14; actual 17, 13 -> |e| 3, 1;
+    #               naive scale (2+1+4+1)/4 = 2
+    #  origin 2006: forecast 17; actual 13, 16 -> |e| 4, 1; scale (2+1+4+1+3)/5 = 2.2
+    #  origin 2007: forecast 13; actual 16 (2009 is beyond the data) -> |e| 3; scale 15/6 = 2.5
+    #  MASE = (3/2 + 1/2 + 4/2.2 + 1/2.2 + 3/2.5) / 5 = 5.4727273 / 5 = 1.0945455
+    #  MAE = 12/5 = 2.4;  RMSE = sqrt((9+1+16+1+9)/5) = sqrt(7.2)
+    naive = fit_benchmark(Y8, "naive")
+    h = run_hindcast(Y8, [naive], horizon=2, origins=3)
+    s = h.score("last value")
+    assert h.origins == ("2005", "2006", "2007")
+    assert s.forecasts == 5
+    assert s.mase == pytest.approx(5.4727273 / 5, rel=1e-6)
+    assert s.mae == pytest.approx(2.4)
+    assert s.rmse == pytest.approx(math.sqrt(7.2))
+    assert "last value itself" in h.verdict
+
+
+def test_coverage_counts_outcomes_inside_the_bands():
+    # Origin 2006, last value 17, sigma^2 = (4+1+16+1+9)/5 = 6.2 (FPP3 5.5):
+    #   80% band step 1: 17 -+ 1.2816 sqrt(6.2) = [13.81, 20.19] -> 2007's 13 is outside;
+    #   step 2: 17 -+ 1.2816 sqrt(12.4) = [12.49, 21.51] -> 16 inside.
+    # Origin 2007, sigma^2 = 47/6: 13 -+ 1.2816 sqrt(47/6) = [9.41, 16.59] -> 16 inside.
+    # 95% bands (1.96) hold all three -> coverage 66.7% and 100%.
+    h = run_hindcast(Y8, [fit_benchmark(Y8, "naive")], horizon=2, origins=2)
+    s = h.score("last value")
+    assert s.coverage80 == pytest.approx(200 / 3)
+    assert s.coverage95 == pytest.approx(100.0)
+    row = h.errors.query("origin == '2006' and step == 1").iloc[0]
+    assert row["lo80"] == pytest.approx(17 - norm.ppf(0.9) * math.sqrt(6.2))
+    assert row["hi95"] == pytest.approx(17 + norm.ppf(0.975) * math.sqrt(6.2))
+
+
+def test_naive_scale_skips_pairs_with_a_missing_end():
+    # |12-10|, |15-11| -> mean 3 (the pairs touching the gap are left out).
+    assert naive_scale(np.array([10.0, 12.0, np.nan, 11.0, 15.0])) == pytest.approx(3.0)
+
+
+def test_errors_frame_has_the_documented_columns():
+    h = run_hindcast(Y8, list(fit_benchmarks(Y8)), horizon=2, origins=2)
+    assert list(h.errors.columns) == [
+        "model", "origin", "step", "time", "actual", "mean", "median",
+        "lo80", "hi80", "lo95", "hi95",
+    ]  # fmt: skip
+    assert [s.model for s in h.scores] == ["last value", "last value + drift", "long-run mean"]
+
+
+def test_default_origins_are_min_10_and_n_over_4():
+    # DESIGN.md: rolling origin over the last min(10, n/4) periods.
+    rng = np.random.default_rng(7)
+    y60 = pd.Series(
+        np.cumsum(rng.normal(size=60)) + 50, index=pd.period_range("1966", periods=60, freq="Y")
+    )
+    assert len(run_hindcast(y60, [fit_benchmark(y60, "naive")], horizon=1).origins) == 10
+    assert len(run_hindcast(Y8, [fit_benchmark(Y8, "naive")], horizon=1).origins) == 2
+
+
+def test_benchmark_hindcast_uses_only_data_up_to_each_origin():
+    # Leakage check: change the final value; forecasts from origins before it must not move.
+    changed = Y8.copy()
+    changed.iloc[-1] = 1000.0
+    models = [fit_benchmark(Y8, k) for k in ("drift", "mean")]
+    a = run_hindcast(Y8, models, horizon=2, origins=3).errors
+    b = run_hindcast(changed, models, horizon=2, origins=3).errors
+    cols = ["mean", "median", "lo80", "hi80", "lo95", "hi95"]
+    pd.testing.assert_frame_equal(a[cols], b[cols])
+    assert (a["actual"] != b["actual"]).any()
+
+
+def test_monthly_origins_are_months_and_mase_uses_seasonal_scale():
+    idx = pd.period_range("2020-01", periods=36, freq="M")
+    season = np.tile(np.arange(12.0), 3)
+    y = pd.Series(season + np.repeat([0.0, 1.0, 2.0], 12), index=idx)
+    h = run_hindcast(y, list(fit_benchmarks(y)), horizon=1, origins=3)
+    assert h.origins == ("2022-09", "2022-10", "2022-11")
+    # Seasonal naive scale: every lag-12 difference is 1; the same-season forecast errs by 1.
+    assert h.score("same season last year").mase == pytest.approx(1.0)
+
+
+@pytest.mark.parametrize(
+    ("kwargs", "match"),
+    [
+        ({"horizon": 0}, "horizon must be an integer from 1 to 30. Got 0 instead."),
+        ({"origins": 8}, "origins must be an integer from 1 to 7. Got 8 instead."),
+        ({"method": "reuse"}, "method must be one of refit. Got 'reuse' instead."),
+    ],
+)
+def test_bad_hindcast_settings_say_what_is_allowed(kwargs, match):
+    with pytest.raises(InputError, match=match):
+        run_hindcast(Y8, [fit_benchmark(Y8, "naive")], **kwargs)
+
+
+# --- ARIMA plumbing with a stand-in fitter (the real fitter is tested with sample data below) ---
+
+
+def _fake_candidate(y: pd.Series, status: str = "ok", reason: str | None = None) -> Candidate:
+    nan = math.nan
+    return Candidate(
+        order=(0, 1, 0), seasonal_order=None, constant=False, label="ARIMA(0,1,0)",
+        status=status, reason=reason, aicc=nan, aic=nan, bic=nan, loglik=nan, n_params=1,
+        nobs=len(y), params={"sigma2": 1.0}, ar=(), ma=(), seasonal_ar=(), seasonal_ma=(),
+        sigma2=1.0, transform=TransformSpec("none"), series=y,
+    )  # fmt: skip
+
+
+def test_rejected_refit_is_recorded_skipped_and_named_in_the_verdict(monkeypatch):
+    calls = []
+
+    def fake_fit_order(y, order, seasonal_order, constant, spec, *, start_params=None):
+        calls.append((len(y), dict(start_params)))
+        if str(y.index[-1]) == "2006":
+            return _fake_candidate(y, "rejected", "root within 1.001 of the unit circle")
+        return _fake_candidate(y)
+
+    def fake_predictive(model, steps):
+        return np.full(steps, float(model.series.iloc[-1])), np.arange(1.0, steps + 1)
+
+    monkeypatch.setattr(search_mod, "fit_order", fake_fit_order, raising=False)
+    monkeypatch.setattr(forecast_mod, "predictive", fake_predictive, raising=False)
+    chosen = _fake_candidate(Y8)
+    h = run_hindcast(Y8, [chosen], horizon=2, origins=3)
+    # Refit on data up to each origin (5, 6, 7 values), warm-started from the model's params.
+    assert calls == [(5, {"sigma2": 1.0}), (6, {"sigma2": 1.0}), (7, {"sigma2": 1.0})]
+    assert h.skipped == (
+        "ARIMA(0,1,0) at origin 2006: refit rejected (root within 1.001 of the unit circle).",
+    )
+    s = h.score("ARIMA(0,1,0)")
+    assert (s.origins, s.forecasts) == (2, 3)
+    assert "failed at 1 of 3 origins" in h.verdict
+    # The last value is added for the verdict and scored on the same origins and steps.
+    assert [x.model for x in h.scores] == ["ARIMA(0,1,0)", "last value"]
+    # The stand-in forecasts the last value, so the two tie on the common origins.
+    assert h.verdict.startswith(
+        "ARIMA(0,1,0) did not beat the last value on MASE over 2 origins ("
+    )
+    assert "equal within 1%" in h.verdict
+
+
+def test_rejected_candidates_passed_in_are_not_scored():
+    rejected = replace(_fake_candidate(Y8), status="rejected", reason="did not converge")
+    h = run_hindcast(Y8, [rejected, fit_benchmark(Y8, "naive")], horizon=1, origins=2)
+    assert [s.model for s in h.scores] == ["last value"]
