@@ -1,0 +1,333 @@
+"""Exports from the Forecast Board: forecast CSV and a standalone HTML report.
+
+Both are pure functions of core results, so they can be tested without a browser. The CSV
+is safe to open in a spreadsheet (no cell is ever run as a formula); the report opens
+offline (plotly.js is inlined once) and escapes every user-supplied string.
+"""
+
+from __future__ import annotations
+
+import csv
+import datetime as _dt
+import html
+import io
+import math
+import re
+from collections.abc import Mapping, Sequence
+from importlib import metadata
+from typing import Any
+
+import pandas as pd
+import plotly.graph_objects as go
+
+from app.figures import graph_config
+from app.wording import forecast_summary
+from forecasting_core import CAUTIONS, Comparison, Forecast, time_label
+
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+_PLAIN_NEGATIVE = re.compile(r"^-(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
+
+
+def neutralise_cell(value: Any) -> Any:
+    """Make one CSV cell safe for spreadsheets.
+
+    A text cell starting with ``=``, ``+``, ``-``, ``@`` (or a tab / carriage return) gets a
+    leading single quote so a spreadsheet shows it as text instead of running it as a
+    formula; plain negative numbers such as ``-2.5`` stay as they are (common practice,
+    after the OWASP guidance on CSV injection).
+
+    Parameters
+    ----------
+    value : Any
+        Cell value; non-strings pass through unchanged.
+    """
+    if not isinstance(value, str) or not value:
+        return value
+    if value.startswith(_FORMULA_START) and not _PLAIN_NEGATIVE.match(value):
+        return "'" + value
+    return value
+
+
+def _one_line(text: Any) -> str:
+    return re.sub(r"\s+", " ", str(text)).strip()
+
+
+def _comment_line(text: str) -> str:
+    """``# text`` on one line with no comma or quote, so it stays one cell starting with #."""
+    return "# " + _one_line(text).replace(",", ";").replace('"', "'")
+
+
+def package_versions() -> dict[str, str]:
+    """Versions of the packages that produce a forecast (for exports)."""
+    out: dict[str, str] = {}
+    for name in ("haulcast", "numpy", "pandas", "scipy", "statsmodels", "dash", "plotly"):
+        try:
+            out[name] = metadata.version(name)
+        except metadata.PackageNotFoundError:
+            continue
+    return out
+
+
+def _now() -> str:
+    return _dt.datetime.now(_dt.UTC).strftime("%Y-%m-%d %H:%M UTC")
+
+
+def export_meta(
+    forecast: Forecast,
+    comparison: Comparison | None = None,
+    *,
+    unit: str | None = None,
+    dataset_hash: str | None = None,
+    dataset_name: str | None = None,
+) -> dict[str, Any]:
+    """What produced a forecast, as ordered label -> value pairs for exports."""
+    meta: dict[str, Any] = {
+        "series": forecast.series_name,
+        "unit": unit or "",
+        "dataset": dataset_name or "",
+        "data sha256": dataset_hash
+        or (str(comparison.provenance.get("data_sha256", comparison.provenance.get("sha256", "")))
+            if comparison is not None else ""),
+        "model": forecast.model,
+        "transform": forecast.transform.name
+        + (f" (lambda {forecast.transform.lam:.3g})" if forecast.transform.lam is not None else ""),
+        "band source": forecast.band_source,
+        "band levels": ", ".join(f"{lv}%" for lv in forecast.levels),
+        "reference level": "" if forecast.reference is None else f"{forecast.reference:g}",
+        "generated": _now(),
+    }
+    return meta
+
+
+def forecast_csv(
+    forecast: Forecast,
+    comparison: Comparison | None = None,
+    *,
+    unit: str | None = None,
+    dataset_hash: str | None = None,
+    dataset_name: str | None = None,
+) -> str:
+    """The forecast table as CSV text with a commented header.
+
+    The header lines start with ``#`` (``pandas.read_csv(..., comment="#")`` skips them):
+    what produced the forecast, then every caution. Then one row per step: ``time, step,
+    mean, median, lo{level}, hi{level}, ..., prob_below_reference`` (probability 0..1, empty
+    without a reference level). Every cell goes through :func:`neutralise_cell`.
+
+    Returns
+    -------
+    str
+        CSV text (``\\r\\n`` line ends, as the csv module writes them).
+    """
+    buf = io.StringIO()
+    meta = export_meta(forecast, comparison, unit=unit, dataset_hash=dataset_hash,
+                       dataset_name=dataset_name)
+    header = ["Haulcast forecast"]
+    header += [f"{key}: {value}" for key, value in meta.items() if value != ""]
+    header += [f"caution: {c}" for c in (forecast.cautions or CAUTIONS)]
+    for line in header:
+        buf.write(_comment_line(line) + "\r\n")
+    writer = csv.writer(buf)
+    columns = ["time", "step", "mean", "median"]
+    for lv in forecast.levels:
+        columns += [f"lo{lv}", f"hi{lv}"]
+    columns.append("prob_below_reference")
+    writer.writerow(columns)
+    table = forecast.table
+    for _, row in table.iterrows():
+        cells: list[Any] = []
+        for col in columns:
+            value = row.get(col)
+            if col == "prob_below_reference" and forecast.reference is None:
+                value = ""
+            elif isinstance(value, float) and math.isnan(value):
+                value = ""
+            elif col == "prob_below_reference":
+                value = round(float(value), 4)
+            elif isinstance(value, float):
+                value = float(f"{value:.6g}")
+            elif col == "time":
+                value = time_label(value) if isinstance(value, pd.Period) else str(value)
+            elif col == "step":
+                value = int(value)
+            cells.append(neutralise_cell(value if not isinstance(value, str) else _one_line(value)))
+        writer.writerow(cells)
+    return buf.getvalue()
+
+
+# ---------------------------------------------------------------------------------------------
+# HTML report
+# ---------------------------------------------------------------------------------------------
+
+_REPORT_CSS = """
+body { font-family: Inter, 'Segoe UI', 'Helvetica Neue', Arial, sans-serif; color: #24313d;
+       margin: 0; background: #f4f6f8; }
+main { max-width: 1040px; margin: 0 auto; padding: 24px 32px 48px; background: #fff; }
+h1 { font-size: 26px; margin: 8px 0 4px; color: #0a4f5d; }
+h2 { font-size: 18px; margin: 28px 0 8px; border-bottom: 2px solid #e3e8ec; padding-bottom: 4px; }
+.sub { color: #6b7783; margin: 0 0 16px; }
+.summary p { font-size: 17px; line-height: 1.5; margin: 6px 0; }
+.cautions { border-left: 5px solid #d0573f; background: #fbf0ed; padding: 10px 16px;
+            margin: 16px 0; }
+.cautions p { margin: 6px 0; }
+table { border-collapse: collapse; font-size: 13px; margin: 8px 0; }
+th, td { border-bottom: 1px solid #e3e8ec; padding: 4px 10px; text-align: right; }
+th { background: #f4f6f8; }
+td.l, th.l { text-align: left; }
+.meta td { text-align: left; }
+code { font-size: 12px; }
+"""
+
+
+def _td(value: Any, left: bool = False) -> str:
+    cls = ' class="l"' if left else ""
+    return f"<td{cls}>{html.escape(str(value))}</td>"
+
+
+def _num(x: Any, digits: int = 4) -> str:
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return str(x)
+    if math.isnan(v):
+        return ""
+    return f"{v:,.{digits}g}" if abs(v) < 1e5 else f"{v:,.0f}"
+
+
+def _table_html(frame: pd.DataFrame, left_cols: Sequence[str] = ()) -> str:
+    head = "".join(
+        f'<th class="l">{html.escape(str(c))}</th>' if c in left_cols else f"<th>{html.escape(str(c))}</th>"
+        for c in frame.columns
+    )
+    rows = []
+    for _, r in frame.iterrows():
+        cells = "".join(
+            _td(r[c], left=True) if c in left_cols else _td(_num(r[c]) if not isinstance(r[c], str) else r[c])
+            for c in frame.columns
+        )
+        rows.append(f"<tr>{cells}</tr>")
+    return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(rows)}</tbody></table>"
+
+
+def _forecast_frame(forecast: Forecast) -> pd.DataFrame:
+    t = forecast.table
+    out = pd.DataFrame({"period": [str(x) for x in t["time"]], "expected": t["mean"], "median": t["median"]})
+    for lv in forecast.levels:
+        out[f"{lv}% low"] = t[f"lo{lv}"]
+        out[f"{lv}% high"] = t[f"hi{lv}"]
+    if forecast.reference is not None:
+        out["chance below reference"] = [f"{100 * float(p):.1f}%" for p in t["prob_below_reference"]]
+    return out
+
+
+def _skill_frame(comparison: Comparison) -> pd.DataFrame | None:
+    if comparison.hindcast is None:
+        return None
+    rows = [
+        {"model": s.model, "MAE": s.mae, "RMSE": s.rmse, "MASE": s.mase,
+         "80% coverage": f"{s.coverage80:.0f}%", "95% coverage": f"{s.coverage95:.0f}%",
+         "interval score (95%)": s.interval_score95}
+        for s in comparison.hindcast.scores
+    ]
+    return pd.DataFrame(rows)
+
+
+def _candidates_frame(comparison: Comparison, limit: int = 10) -> pd.DataFrame:
+    rows = [
+        {"model": c.label, "AICc": c.aicc, "delta AICc": c.delta_aicc, "weight": c.weight, "BIC": c.bic}
+        for c in comparison.accepted[:limit]
+    ]
+    return pd.DataFrame(rows, columns=["model", "AICc", "delta AICc", "weight", "BIC"])
+
+
+def _meta_table(pairs: Mapping[str, Any]) -> str:
+    rows = "".join(
+        f"<tr><th class='l'>{html.escape(str(k))}</th>{_td(v, left=True)}</tr>" for k, v in pairs.items()
+    )
+    return f'<table class="meta"><tbody>{rows}</tbody></table>'
+
+
+def report_html(
+    forecast: Forecast,
+    comparison: Comparison | None = None,
+    *,
+    figures: Sequence[tuple[str, go.Figure]] = (),
+    unit: str | None = None,
+    dataset_hash: str | None = None,
+    dataset_name: str | None = None,
+    settings: Mapping[str, Any] | None = None,
+    summary: Sequence[str] | None = None,
+) -> str:
+    """A standalone HTML report that opens offline.
+
+    Parameters
+    ----------
+    forecast : Forecast
+    comparison : Comparison, optional
+        Adds the hindcast skill table, the top candidates and the core's provenance.
+    figures : sequence of (str, Figure)
+        Headed figures embedded in order; plotly.js is inlined once, with the first.
+    unit, dataset_hash, dataset_name : str, optional
+    settings : Mapping, optional
+        Model Bench settings (default: ``comparison.settings``).
+    summary : sequence of str, optional
+        Sentences for the top (default: :func:`app.wording.forecast_summary`).
+
+    Returns
+    -------
+    str
+        A complete HTML document. Every user-supplied string is escaped.
+    """
+    e = html.escape
+    sentences = list(summary) if summary is not None else forecast_summary(forecast, comparison, unit=unit)
+    meta = export_meta(forecast, comparison, unit=unit, dataset_hash=dataset_hash, dataset_name=dataset_name)
+    parts = [
+        "<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>",
+        f"<title>Haulcast report: {e(forecast.series_name)}</title>",
+        f"<style>{_REPORT_CSS}</style></head><body><main>",
+        f"<h1>Forecast report: {e(forecast.series_name)}</h1>",
+        f"<p class='sub'>Haulcast, generated {e(meta['generated'])} &middot; model {e(forecast.model)}</p>",
+        "<section class='summary'>" + "".join(f"<p>{e(s)}</p>" for s in sentences) + "</section>",
+        "<section class='cautions'><strong>Read before use</strong>"
+        + "".join(f"<p>{e(c)}</p>" for c in (forecast.cautions or CAUTIONS))
+        + "</section>",
+    ]
+    first = True
+    for heading, fig in figures:
+        parts.append(f"<h2>{e(heading)}</h2>")
+        parts.append(
+            fig.to_html(full_html=False, include_plotlyjs=first, config=graph_config(heading),
+                        default_width="100%")
+        )
+        first = False
+    parts.append("<h2>Forecast table</h2>")
+    parts.append(_table_html(_forecast_frame(forecast), left_cols=("period",)))
+    if comparison is not None:
+        skill = _skill_frame(comparison)
+        if skill is not None:
+            parts.append("<h2>Hindcast skill</h2>")
+            if comparison.hindcast is not None and comparison.hindcast.verdict:
+                parts.append(f"<p>{e(comparison.hindcast.verdict)}</p>")
+            parts.append(_table_html(skill, left_cols=("model",)))
+        parts.append("<h2>Best candidates by AICc</h2>")
+        parts.append(_table_html(_candidates_frame(comparison), left_cols=("model",)))
+        if comparison.diagnostics is not None and comparison.diagnostics.verdict:
+            parts.append(f"<p>Residual checks ({e(comparison.diagnostics.model)}): "
+                         f"{e(comparison.diagnostics.verdict)}</p>")
+    for w in forecast.warnings + (comparison.warnings if comparison is not None else ()):
+        parts.append(f"<p><strong>Warning:</strong> {e(w)}</p>")
+    parts.append("<h2>What produced this forecast</h2>")
+    parts.append(_meta_table({k: v for k, v in meta.items() if v != ""}))
+    chosen = dict(settings) if settings is not None else (dict(comparison.settings) if comparison else {})
+    if chosen:
+        parts.append("<h2>Settings</h2>")
+        parts.append(_meta_table({k: v for k, v in chosen.items()}))
+    versions = package_versions()
+    if comparison is not None:
+        for v in dict(comparison.provenance).values():
+            if isinstance(v, Mapping):
+                versions.update({str(kk): str(vv) for kk, vv in v.items()})
+    parts.append("<h2>Package versions</h2>")
+    parts.append(_meta_table(versions))
+    parts.append("</main></body></html>")
+    return "\n".join(parts)

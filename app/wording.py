@@ -1,0 +1,129 @@
+"""Plain-language sentences about a forecast, shared by the Forecast Board and the report.
+
+The summary is written to be read aloud in a meeting: numbers rounded the way people say
+them, the unit after each value, probabilities in whole percent.
+"""
+
+from __future__ import annotations
+
+import math
+
+from forecasting_core import Comparison, Forecast, SkillScore
+
+#: The benchmark the chosen model is measured against in the summary.
+LAST_VALUE = "last value"
+
+
+def fmt_value(x: float | None, unit: str | None = None) -> str:
+    """Format a value for reading aloud: ``12,340 t``, ``45.6 t``, ``0.123``.
+
+    Parameters
+    ----------
+    x : float or None
+        Value on the original scale.
+    unit : str, optional
+        Appended after a space.
+    """
+    if x is None or (isinstance(x, float) and math.isnan(x)):
+        return "n/a"
+    a = abs(x)
+    if a >= 1000:
+        text = f"{x:,.0f}"
+    elif a >= 100:
+        text = f"{x:,.0f}"
+    elif a >= 10:
+        text = f"{x:,.1f}"
+    else:
+        text = f"{x:.3g}"
+    return f"{text} {unit}" if unit else text
+
+
+def fmt_chance(p: float | None) -> str:
+    """Format a probability (0..1) as whole percent, with 'less than 1%' at the ends."""
+    if p is None or (isinstance(p, float) and math.isnan(p)):
+        return "n/a"
+    pct = 100.0 * float(p)
+    if pct < 1.0:
+        return "less than 1%"
+    if pct > 99.0:
+        return "more than 99%"
+    return f"{pct:.0f}%"
+
+
+def _score(comparison: Comparison | None, model: str) -> SkillScore | None:
+    if comparison is None or comparison.hindcast is None:
+        return None
+    return comparison.hindcast.score(model)
+
+
+def hindcast_sentence(comparison: Comparison | None, model: str) -> str:
+    """One sentence on how ``model`` did against the last value on the hindcast."""
+    if comparison is None or comparison.hindcast is None:
+        return "This model was not replayed on past years (no hindcast was run)."
+    mine = _score(comparison, model)
+    naive = _score(comparison, LAST_VALUE)
+    n = len(comparison.hindcast.origins)
+    if mine is None:
+        return f"{model} was not among the models replayed on past years."
+    if naive is None or not naive.mae or math.isnan(naive.mae) or math.isnan(mine.mae):
+        return f"Replayed on {n} past years, its forecasts missed by {mine.mae:,.3g} on average."
+    change = 1.0 - mine.mae / naive.mae
+    years = f"the last {n} years" if n != 1 else "the last year"
+    if abs(change) < 0.02:
+        return (f"Replayed on {years}, it did about as well as simply repeating the last "
+                "observed value.")
+    if change > 0:
+        return (f"Replayed on {years}, its errors were {100 * change:.0f}% smaller than simply "
+                "repeating the last observed value.")
+    return (f"Replayed on {years}, its errors were {100 * -change:.0f}% larger than simply "
+            "repeating the last observed value, so treat it with care.")
+
+
+def forecast_summary(
+    forecast: Forecast,
+    comparison: Comparison | None = None,
+    *,
+    unit: str | None = None,
+) -> list[str]:
+    """Sentences a manager can read aloud about a forecast.
+
+    Parameters
+    ----------
+    forecast : Forecast
+        From ``make_forecast``.
+    comparison : Comparison, optional
+        The comparison the model came from (for the hindcast sentence).
+    unit : str, optional
+        Unit of the values on the original scale.
+
+    Returns
+    -------
+    list of str
+        Expected value, 80% range, chance below the reference level (when one is set), the
+        model and how it did on the hindcast.
+    """
+    table = forecast.table
+    first = table.iloc[0]
+    t1 = str(first["time"])
+    name = forecast.series_name
+    out = [f"For {t1}, the expected {name} is {fmt_value(float(first['mean']), unit)} "
+           f"(median {fmt_value(float(first['median']), unit)})."]
+    if "lo80" in table.columns:
+        out.append(f"There is an 80% chance that it falls between "
+                   f"{fmt_value(float(first['lo80']), unit)} and "
+                   f"{fmt_value(float(first['hi80']), unit)}.")
+    if len(table) > 1:
+        last = table.iloc[-1]
+        out.append(f"By {last['time']} the expected value is {fmt_value(float(last['mean']), unit)}, "
+                   f"and the 80% range widens to {fmt_value(float(last['lo80']), unit)} to "
+                   f"{fmt_value(float(last['hi80']), unit)}." if "lo80" in table.columns else
+                   f"By {last['time']} the expected value is {fmt_value(float(last['mean']), unit)}.")
+    if forecast.reference is not None:
+        probs = [float(p) for p in table["prob_below_reference"]]
+        ref = fmt_value(float(forecast.reference), unit)
+        text = f"The chance of falling below the reference level of {ref} is {fmt_chance(probs[0])} in {t1}"
+        if len(probs) > 1:
+            text += f" and {fmt_chance(probs[-1])} by {table.iloc[-1]['time']}"
+        out.append(text + ".")
+    out.append(f"The forecast comes from {forecast.model}. {hindcast_sentence(comparison, forecast.model)}")
+    return out
