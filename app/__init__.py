@@ -1,0 +1,365 @@
+"""Haulcast's dashboard: the Dash app factory.
+
+>>> from app import create_app
+>>> app = create_app({"DATA_DIR": "/tmp/haulcast"})        # doctest: +SKIP
+>>> app.server.run(port=8050)                              # doctest: +SKIP
+
+Configuration keys (all optional):
+
+``DATA_DIR``
+    Folder for datasets and the result cache (default ``$HAULCAST_DATA_DIR`` or
+    ``~/.haulcast``).
+``CACHE_TYPE`` / ``CACHE_REDIS_URL`` / ``CACHE_DEFAULT_TIMEOUT``
+    See :mod:`app.cache` (filesystem cache under ``DATA_DIR/cache`` by default).
+``MAX_UPLOAD_BYTES``
+    Largest upload accepted, in bytes (default and upper limit:
+    ``forecasting_core.MAX_FILE_BYTES``, 20 MB).
+``LOAD_SAMPLES``
+    Load the demo datasets from ``sample_data/`` at start (default True).
+``SAMPLE_DIR``
+    Where the demo datasets are (default: the repository's ``sample_data/``).
+
+The layout is the shell (top bar, the ``hc-selection`` session store, a global alert slot)
+around Dash's page container; each module in ``app/pages`` registers its page and owns its
+callbacks. Debug mode is off and every asset (plotly.js, CSS, images) is served by this
+server: nothing is fetched from the internet.
+"""
+
+from __future__ import annotations
+
+import functools
+import importlib
+import logging
+import os
+from collections.abc import Mapping
+from pathlib import Path
+from typing import Any
+
+import dash
+from dash import Input, Output, dcc, html
+from dash import _callback as _dash_callback
+from flask import Flask
+
+import forecasting_core as fc
+from app.cache import init_cache
+from app.state import SELECTION_ID, TRANSFORM_LABELS, resolve_selection
+from app.store import DatasetStore
+from app.ui import error_alert, guarded
+
+__all__ = ["PAGES", "create_app", "resolve_selection"]
+
+logger = logging.getLogger("haulcast.app")
+
+ROOT = Path(__file__).resolve().parents[1]
+ASSETS_DIR = ROOT / "assets"
+SAMPLE_DIR = ROOT / "sample_data"
+
+#: The three pages in order: (module, path, name, step).
+PAGES: tuple[tuple[str, str, str, int], ...] = (
+    ("intake", "/intake", "Intake", 1),
+    ("bench", "/bench", "Model Bench", 2),
+    ("board", "/board", "Forecast Board", 3),
+)
+
+_INDEX = """<!DOCTYPE html>
+<html lang="en">
+    <head>
+        {%metas%}
+        <title>{%title%}</title>
+        <link rel="icon" type="image/svg+xml" href="{%app_entry_path%}assets/haulcast-mark.svg">
+        {%css%}
+    </head>
+    <body>
+        <noscript>Haulcast needs JavaScript switched on in this browser.</noscript>
+        {%app_entry%}
+        <footer>
+            {%config%}
+            {%scripts%}
+            {%renderer%}
+        </footer>
+    </body>
+</html>
+"""
+
+
+def _defaults() -> dict[str, Any]:
+    return {
+        "DATA_DIR": os.environ.get("HAULCAST_DATA_DIR") or str(Path.home() / ".haulcast"),
+        "CACHE_TYPE": "FileSystemCache",
+        "CACHE_REDIS_URL": os.environ.get("HAULCAST_REDIS_URL") or None,
+        "MAX_UPLOAD_BYTES": fc.MAX_FILE_BYTES,
+        "LOAD_SAMPLES": True,
+        "SAMPLE_DIR": str(SAMPLE_DIR),
+    }
+
+
+def create_app(config: Mapping[str, Any] | None = None) -> dash.Dash:
+    """Build the Haulcast Dash app.
+
+    Parameters
+    ----------
+    config : mapping, optional
+        Keys described in the module docstring; anything else is copied into the Flask
+        config as well.
+
+    Returns
+    -------
+    dash.Dash
+        ``app.server`` is the Flask server (WSGI application) to serve.
+    """
+    cfg = {**_defaults(), **dict(config or {})}
+    data_dir = Path(cfg["DATA_DIR"]).expanduser()
+    data_dir.mkdir(parents=True, exist_ok=True)
+    max_bytes = min(int(cfg["MAX_UPLOAD_BYTES"]), int(fc.MAX_FILE_BYTES))
+    cfg["MAX_UPLOAD_BYTES"] = max_bytes
+
+    server = Flask("app", root_path=str(ROOT))
+    server.config.update({k: v for k, v in cfg.items() if k.isupper()})
+    server.config["DATA_DIR"] = str(data_dir)
+    # An upload travels base64-encoded inside a JSON callback body: allow a third more plus slack.
+    server.config["MAX_CONTENT_LENGTH"] = int(max_bytes * 1.4) + 1_000_000
+    server.config["PROPAGATE_EXCEPTIONS"] = False
+
+    store = DatasetStore(data_dir, max_bytes=max_bytes)
+    if cfg.get("LOAD_SAMPLES", True):
+        store.load_samples(cfg.get("SAMPLE_DIR") or SAMPLE_DIR)
+    server.extensions["haulcast"] = {"store": store, "config": cfg}
+    init_cache(server, cfg, data_dir)
+
+    app = dash.Dash(
+        "app",
+        server=server,
+        use_pages=True,
+        pages_folder="",
+        assets_folder=str(ASSETS_DIR),
+        serve_locally=True,
+        title="Haulcast",
+        update_title=None,
+        suppress_callback_exceptions=True,
+        index_string=_INDEX,
+        meta_tags=[{"name": "viewport", "content": "width=device-width, initial-scale=1"}],
+        on_error=_on_error,
+    )
+    _attach_pages(app)
+    app.layout = _shell_layout
+    _register_shell_callbacks(app)
+    return app
+
+
+# ---------------------------------------------------------------------------------------------
+# Pages
+# ---------------------------------------------------------------------------------------------
+
+
+@functools.cache
+def _page_callbacks() -> tuple[tuple[Any, ...], tuple[tuple[str, Any], ...]]:
+    """Import the page modules once per process and take their ``dash.callback`` registrations.
+
+    Dash keeps ``dash.callback`` registrations in process-wide lists that the first app to
+    serve a request consumes. Taking them here and handing each app its own copy lets
+    ``create_app`` be called more than once in a process (tests do).
+    """
+    before_list = len(_dash_callback.GLOBAL_CALLBACK_LIST)
+    before_keys = set(_dash_callback.GLOBAL_CALLBACK_MAP)
+    for module_name, path, name, step in PAGES:
+        full = f"app.pages.{module_name}"
+        try:
+            module = importlib.import_module(full)
+        except ModuleNotFoundError as err:
+            if err.name != full:
+                raise
+            logger.warning("Page module %s is missing; showing a placeholder at %s", full, path)
+            dash.register_page(
+                full,
+                path=path,
+                name=name,
+                order=step,
+                title=f"{name} \u00b7 Haulcast",
+                layout=_placeholder_layout(name, step),
+            )
+            continue
+        page = dash.page_registry.get(full)
+        if page is not None and page.get("layout") is None and hasattr(module, "layout"):
+            page["layout"] = module.layout
+    new_list = tuple(_dash_callback.GLOBAL_CALLBACK_LIST[before_list:])
+    del _dash_callback.GLOBAL_CALLBACK_LIST[before_list:]
+    new_map = tuple(
+        (k, _dash_callback.GLOBAL_CALLBACK_MAP.pop(k))
+        for k in list(_dash_callback.GLOBAL_CALLBACK_MAP)
+        if k not in before_keys
+    )
+    return new_list, new_map
+
+
+def _attach_pages(app: dash.Dash) -> None:
+    callbacks, callback_map = _page_callbacks()
+    for key, spec in callback_map:
+        app.callback_map[key] = spec
+    app._callback_list.extend(callbacks)  # noqa: SLF001 - see _page_callbacks
+
+
+def _placeholder_layout(name: str, step: int) -> html.Div:
+    from app.ui import page_header
+
+    return html.Div(
+        [page_header(name, "This page is not available on this server yet.", step=step)],
+        className="hc-page",
+    )
+
+
+# ---------------------------------------------------------------------------------------------
+# Shell
+# ---------------------------------------------------------------------------------------------
+
+
+def _shell_layout() -> html.Div:
+    nav = [
+        dcc.Link(
+            [
+                html.Span(str(step), className="hc-nav__num"),
+                html.Span(name, className="hc-nav__name"),
+            ],
+            href=path,
+            id=f"hc-nav-{module}",
+            className="hc-nav__link",
+        )
+        for module, path, name, step in PAGES
+    ]
+    return html.Div(
+        [
+            dcc.Location(id="hc-url"),
+            dcc.Store(id=SELECTION_ID, storage_type="session"),
+            html.A("Skip to the page content", href="#hc-main", className="hc-skip"),
+            html.Header(
+                [
+                    dcc.Link(
+                        [
+                            html.Img(
+                                src=dash.get_asset_url("haulcast-mark.svg"),
+                                alt="",
+                                className="hc-brand__mark",
+                            ),
+                            html.Span("Haulcast", className="hc-brand__name"),
+                        ],
+                        href="/intake",
+                        className="hc-brand",
+                        id="hc-brand",
+                    ),
+                    html.Nav(nav, className="hc-nav", **{"aria-label": "Steps"}),
+                    html.Div(
+                        [
+                            html.Div(
+                                [
+                                    html.Span("Dataset", className="hc-context__label"),
+                                    html.Span(
+                                        "\u2014",
+                                        id="hc-context-dataset",
+                                        className="hc-context__value",
+                                    ),
+                                ],
+                                className="hc-context__item",
+                            ),
+                            html.Div(
+                                [
+                                    html.Span("Series", className="hc-context__label"),
+                                    html.Span(
+                                        "\u2014",
+                                        id="hc-context-series",
+                                        className="hc-context__value",
+                                    ),
+                                ],
+                                className="hc-context__item",
+                            ),
+                            html.Div(
+                                [
+                                    html.Span("Transform", className="hc-context__label"),
+                                    html.Span(
+                                        "\u2014",
+                                        id="hc-context-transform",
+                                        className="hc-context__value",
+                                    ),
+                                ],
+                                className="hc-context__item",
+                            ),
+                            html.Div(
+                                [
+                                    html.Span("Model", className="hc-context__label"),
+                                    html.Span(
+                                        "\u2014",
+                                        id="hc-context-model",
+                                        className="hc-context__value",
+                                    ),
+                                ],
+                                className="hc-context__item",
+                            ),
+                        ],
+                        id="hc-context",
+                        className="hc-context",
+                        **{"aria-live": "polite"},
+                    ),
+                ],
+                className="hc-topbar",
+            ),
+            html.Div(id="hc-global-alert", className="hc-global-alert"),
+            html.Main(dash.page_container, id="hc-main", className="hc-main"),
+            html.Footer(
+                [
+                    html.Span(f"Haulcast {fc.__version__}"),
+                    html.Span(
+                        "Statistical projections from past values only \u2014 not a stock assessment."
+                    ),
+                ],
+                className="hc-footer",
+            ),
+        ],
+        className="hc-shell",
+    )
+
+
+def _register_shell_callbacks(app: dash.Dash) -> None:
+    @app.callback(
+        Output("hc-context-dataset", "children"),
+        Output("hc-context-series", "children"),
+        Output("hc-context-transform", "children"),
+        Output("hc-context-model", "children"),
+        Output("hc-global-alert", "children"),
+        Input(SELECTION_ID, "data"),
+    )
+    @guarded("showing the current selection", outputs=5, alert_at=4)
+    def show_context(data: Mapping[str, Any] | None) -> list[Any]:
+        from app.store import get_store
+
+        store = get_store()
+        sel = resolve_selection(data, store)
+        if sel["dataset_id"] is None:
+            name: Any = "none loaded"
+        else:
+            meta = store.meta(sel["dataset_id"])
+            name = (
+                [meta.filename, html.Span(" demo", className="hc-tag")]
+                if meta.sample
+                else meta.filename
+            )
+        return [
+            name,
+            sel["series"] or "\u2014",
+            TRANSFORM_LABELS.get(sel["transform"], sel["transform"]),
+            sel["model"] or "best by AICc",
+            None,
+        ]
+
+    @app.callback(
+        [Output(f"hc-nav-{module}", "className") for module, *_ in PAGES],
+        Input("hc-url", "pathname"),
+    )
+    def mark_current(pathname: str | None) -> list[str]:
+        path = (pathname or "/").rstrip("/") or "/intake"
+        return [
+            "hc-nav__link hc-nav__link--current" if path == page_path else "hc-nav__link"
+            for _module, page_path, *_ in PAGES
+        ]
+
+
+def _on_error(err: Exception) -> None:
+    """Last line of defence for a callback that is not ``guarded``: an alert at the top."""
+    dash.set_props("hc-global-alert", {"children": error_alert(err, "updating the page")})

@@ -1,0 +1,264 @@
+"""Datasets on the server: one folder per uploaded file, keyed by its content hash.
+
+Layout under ``DATA_DIR``::
+
+    datasets/<sha256>/raw          the bytes exactly as uploaded
+    datasets/<sha256>/meta.json    {"id", "filename", "kind", "size", "saved_at"}
+
+A dataset is immutable: saving the same bytes again returns the same id. The original file
+name is kept (sanitised) only for display and for telling CSV from Excel; it is never used as a
+path. Which datasets a visitor may see is decided by the browser session (its list of uploaded
+ids, kept in the ``hc-selection`` store) plus the sample datasets that everyone sees; the server
+keeps no per-visitor state.
+"""
+
+from __future__ import annotations
+
+import functools
+import json
+import os
+import re
+import tempfile
+import unicodedata
+from collections.abc import Iterable
+from dataclasses import asdict, dataclass
+from datetime import UTC, datetime
+from hashlib import sha256
+from pathlib import Path
+
+import forecasting_core as fc
+
+_ID = re.compile(r"^[0-9a-f]{64}$")
+_SAFE = re.compile(r"[^A-Za-z0-9 ._()+-]+")
+EXCEL_SUFFIXES = (".xlsx", ".xlsm")
+DATA_SUFFIXES = (".csv", ".txt", ".tsv", *EXCEL_SUFFIXES)
+
+
+@dataclass(frozen=True)
+class DatasetMeta:
+    """What the store knows about one dataset.
+
+    Parameters
+    ----------
+    id : str
+        sha256 of the raw bytes (64 lowercase hex digits).
+    filename : str
+        Sanitised original file name (display only).
+    kind : {"csv", "xlsx"}
+    size : int
+        Bytes.
+    saved_at : str
+        ISO 8601 UTC time of the first save.
+    sample : bool
+        One of the demo datasets every visitor sees.
+    """
+
+    id: str
+    filename: str
+    kind: str
+    size: int
+    saved_at: str
+    sample: bool = False
+
+    def to_dict(self) -> dict[str, object]:
+        return asdict(self)
+
+
+def sanitise_filename(filename: str | None) -> str:
+    """A display-safe file name: last path part, printable ASCII, at most 120 characters.
+
+    >>> sanitise_filename("../../etc/passwd")
+    'passwd'
+    >>> sanitise_filename("C:\\\\data\\\\Landings 2025 (final).csv")
+    'Landings 2025 (final).csv'
+    """
+    name = str(filename or "")
+    name = re.split(r"[\\/]", name)[-1]
+    name = unicodedata.normalize("NFKD", name).encode("ascii", "ignore").decode("ascii")
+    name = _SAFE.sub("_", name).strip(" .")
+    name = re.sub(r"_+", "_", name)
+    if len(name) > 120:
+        stem, dot, ext = name.rpartition(".")
+        name = (stem[:110] + dot + ext[:8]) if dot and len(ext) <= 8 else name[:120]
+    return name or "upload.csv"
+
+
+def _kind(filename: str) -> str:
+    return "xlsx" if filename.lower().endswith(EXCEL_SUFFIXES) else "csv"
+
+
+def check_dataset_id(dataset_id: str) -> str:
+    """Return ``dataset_id`` if it looks like a content hash, else raise InputError."""
+    if not isinstance(dataset_id, str) or not _ID.match(dataset_id):
+        raise fc.InputError(
+            f"dataset id must be 64 hexadecimal digits. Got {str(dataset_id)[:80]!r} instead."
+        )
+    return dataset_id
+
+
+class DatasetStore:
+    """Content-addressed datasets under ``data_dir/datasets``.
+
+    Parameters
+    ----------
+    data_dir : str or Path
+        Created when missing.
+    max_bytes : int
+        Largest upload accepted, in bytes (defaults to ``forecasting_core.MAX_FILE_BYTES``).
+    """
+
+    def __init__(self, data_dir: str | os.PathLike[str], *, max_bytes: int | None = None) -> None:
+        self.data_dir = Path(data_dir)
+        self.root = self.data_dir / "datasets"
+        self.root.mkdir(parents=True, exist_ok=True)
+        self.max_bytes = int(max_bytes if max_bytes is not None else fc.MAX_FILE_BYTES)
+        self._samples: list[str] = []
+        # Datasets are immutable, so a per-store memo is safe to share between sessions.
+        self._load = functools.lru_cache(maxsize=32)(self._load_uncached)
+
+    # -- writing ------------------------------------------------------------------------------
+
+    def save(self, raw: bytes, filename: str, *, sample: bool = False) -> str:
+        """Keep ``raw`` (the bytes of one uploaded file) and return its id (sha256 hex).
+
+        Raises
+        ------
+        forecasting_core.InputError
+            When the file is empty or larger than ``max_bytes``.
+        """
+        if not isinstance(raw, bytes | bytearray):
+            raise fc.InputError(f"file contents must be bytes. Got {type(raw).__name__} instead.")
+        if len(raw) == 0:
+            raise fc.InputError(
+                "the file is empty (0 bytes). Choose a CSV or .xlsx file with a header row and data."
+            )
+        if len(raw) > self.max_bytes:
+            raise fc.InputError(
+                f"the file must be at most {_mb(self.max_bytes)}. Got {_mb(len(raw))} instead. "
+                "Split it, or export only the columns you need."
+            )
+        digest = sha256(raw).hexdigest()
+        folder = self.root / digest
+        if not (folder / "meta.json").exists():
+            clean = sanitise_filename(filename)
+            meta = DatasetMeta(
+                id=digest,
+                filename=clean,
+                kind=_kind(clean),
+                size=len(raw),
+                saved_at=datetime.now(UTC).isoformat(timespec="seconds"),
+                sample=sample,
+            )
+            tmp = Path(tempfile.mkdtemp(prefix=".tmp-", dir=self.root))
+            (tmp / "raw").write_bytes(bytes(raw))
+            (tmp / "meta.json").write_text(json.dumps(meta.to_dict(), indent=1), encoding="utf-8")
+            try:
+                os.replace(tmp, folder)
+            except OSError:  # another request saved the same bytes first
+                for p in tmp.iterdir():
+                    p.unlink()
+                tmp.rmdir()
+        if sample and digest not in self._samples:
+            self._samples.append(digest)
+        return digest
+
+    def load_samples(self, folder: str | os.PathLike[str]) -> list[str]:
+        """Save every data file in ``folder`` as a sample dataset; return their ids, demo first.
+
+        The demo (what a brand-new visitor sees) is the wide annual landings file: the first
+        file whose name mentions landings and not a month, else the first file by name.
+        """
+        folder = Path(folder)
+        if not folder.is_dir():
+            return []
+        files = sorted(
+            p for p in folder.iterdir() if p.is_file() and p.suffix.lower() in DATA_SUFFIXES
+        )
+        files.sort(key=lambda p: (not _is_demo_name(p.name), p.name))
+        for path in files:
+            self.save(path.read_bytes(), path.name, sample=True)
+        return list(self._samples)
+
+    # -- reading ------------------------------------------------------------------------------
+
+    def exists(self, dataset_id: str | None) -> bool:
+        return (
+            bool(dataset_id)
+            and bool(_ID.match(str(dataset_id)))
+            and (self.root / str(dataset_id) / "meta.json").exists()
+        )
+
+    def meta(self, dataset_id: str) -> DatasetMeta:
+        """Metadata of one dataset (InputError when unknown)."""
+        folder = self._folder(dataset_id)
+        data = json.loads((folder / "meta.json").read_text(encoding="utf-8"))
+        data["sample"] = dataset_id in self._samples
+        return DatasetMeta(**data)
+
+    def raw(self, dataset_id: str) -> bytes:
+        """The bytes exactly as uploaded."""
+        return (self._folder(dataset_id) / "raw").read_bytes()
+
+    def load_table(self, dataset_id: str) -> fc.Table:
+        """The file read by :func:`forecasting_core.read_table` (memoized; do not mutate)."""
+        self._folder(dataset_id)
+        return self._load(dataset_id)
+
+    def samples(self) -> list[str]:
+        """Ids of the sample datasets, the demo dataset first."""
+        return list(self._samples)
+
+    def default_id(self) -> str | None:
+        """The demo dataset a new visitor sees (None when no samples are loaded)."""
+        return self._samples[0] if self._samples else None
+
+    def visible(self, dataset_id: str | None, uploads: Iterable[str] = ()) -> bool:
+        """Whether a session with these uploads may open ``dataset_id``."""
+        if not dataset_id:
+            return False
+        return (dataset_id in self._samples or dataset_id in set(uploads or ())) and self.exists(
+            dataset_id
+        )
+
+    def list(self, uploads: Iterable[str] = ()) -> list[DatasetMeta]:  # noqa: A003
+        """Datasets one session may see: the samples, then its own uploads (newest last)."""
+        out = [self.meta(i) for i in self._samples if self.exists(i)]
+        seen = set(self._samples)
+        for i in uploads or ():
+            if i not in seen and self.exists(i):
+                out.append(self.meta(i))
+                seen.add(i)
+        return out
+
+    # -- internals ----------------------------------------------------------------------------
+
+    def _folder(self, dataset_id: str) -> Path:
+        check_dataset_id(dataset_id)
+        folder = self.root / dataset_id
+        if not (folder / "meta.json").exists():
+            raise fc.InputError(
+                f"dataset {dataset_id[:12]} was not found on this server. Upload the file again."
+            )
+        return folder
+
+    def _load_uncached(self, dataset_id: str) -> fc.Table:
+        folder = self._folder(dataset_id)
+        meta = json.loads((folder / "meta.json").read_text(encoding="utf-8"))
+        return fc.read_table((folder / "raw").read_bytes(), name=meta["filename"])
+
+
+def _is_demo_name(name: str) -> bool:
+    low = name.lower()
+    return "landings" in low and not any(w in low for w in ("month", "squid", "long", "20"))
+
+
+def _mb(n: int) -> str:
+    """Bytes as MB/kB with 1 MB = 1024 x 1024 bytes (as file managers show them)."""
+    return f"{n / 1048576:.1f} MB" if n >= 102_400 else f"{n / 1024:.0f} kB"
+
+
+def get_store() -> DatasetStore:
+    """The store of the running app (call inside a request or callback)."""
+    from flask import current_app
+
+    return current_app.extensions["haulcast"]["store"]
