@@ -53,8 +53,18 @@ def _one_line(text: Any) -> str:
 
 
 def _comment_line(text: str) -> str:
-    """``# text`` on one line with no comma or quote, so it stays one cell starting with #."""
-    return "# " + _one_line(text).replace(",", ";").replace('"', "'")
+    """``# text`` on one physical line that no spreadsheet runs as a formula.
+
+    The text keeps its commas (``pandas.read_csv(comment="#")`` skips the whole line), so a
+    spreadsheet may split it into cells; every piece after a comma is neutralised like a cell.
+    Double quotes become single quotes so no quoted field can open.
+    """
+    pieces = _one_line(text).replace('"', "'").split(",")
+    safe = [pieces[0]] + [
+        (" '" + p.lstrip()) if p.lstrip().startswith(_FORMULA_START) and not _PLAIN_NEGATIVE.match(p.strip()) else p
+        for p in pieces[1:]
+    ]
+    return "# " + ",".join(safe)
 
 
 def package_versions() -> dict[str, str]:
@@ -160,7 +170,7 @@ def forecast_csv(
 # ---------------------------------------------------------------------------------------------
 
 _REPORT_CSS = """
-body { font-family: Inter, 'Segoe UI', 'Helvetica Neue', Arial, sans-serif; color: #24313d;
+body { font-family: 'Segoe UI', 'Noto Sans', 'DejaVu Sans', 'Helvetica Neue', Arial, sans-serif; color: #24313d;
        margin: 0; background: #f4f6f8; }
 main { max-width: 1040px; margin: 0 auto; padding: 24px 32px 48px; background: #fff; }
 h1 { font-size: 26px; margin: 8px 0 4px; color: #0a4f5d; }

@@ -29,16 +29,17 @@ COLORS: dict[str, str] = {
     "model": "#0f6e80",
     "model_dark": "#0a4f5d",
     "benchmark": "#8a94a0",
-    "reference": "#d0573f",
+    "reference": "#c2452d",
     "grid": "#e3e8ec",
-    "text": "#24313d",
-    "muted": "#6b7783",
+    "text": "#14222e",
+    "muted": "#5a6672",
 }
 
 #: Band opacity per level: the narrower the band, the stronger the tint.
 BAND_ALPHA: dict[int, float] = {50: 0.42, 80: 0.26, 95: 0.14}
 
-FONT_FAMILY = "Inter, 'Segoe UI', 'Helvetica Neue', Arial, sans-serif"
+#: Locally installed fonts only (the same stack as the pages).
+FONT_FAMILY = "'Segoe UI', 'Noto Sans', 'DejaVu Sans', 'Helvetica Neue', Arial, sans-serif"
 
 
 def _rgba(hex_color: str, alpha: float) -> str:

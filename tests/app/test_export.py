@@ -1,0 +1,160 @@
+"""Forecast CSV and HTML report exports, on results from real core calls.
+
+Data: the Nile river flow series that statsmodels ships (statsmodels.datasets.nile,
+annual volumes 1871-1970, 10^8 m^3).
+"""
+
+from __future__ import annotations
+
+import csv
+import dataclasses
+import io
+import re
+
+import pandas as pd
+import pytest
+import statsmodels.api as sm
+
+import forecasting_core as fc
+from app import figures
+from app.export import _comment_line, forecast_csv, neutralise_cell, report_html
+
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+PLAIN_NUMBER = re.compile(r"^-?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
+
+
+@pytest.fixture(scope="module")
+def nile() -> pd.Series:
+    data = sm.datasets.nile.load_pandas().data
+    index = pd.period_range(str(int(data["year"].iloc[0])), periods=len(data), freq="Y")
+    return pd.Series(data["volume"].to_numpy(float), index=index, name="nile")
+
+
+@pytest.fixture(scope="module")
+def comparison(nile: pd.Series) -> fc.Comparison:
+    return fc.compare_models(nile, horizon=5)
+
+
+@pytest.fixture(scope="module")
+def forecast(comparison: fc.Comparison) -> fc.Forecast:
+    return fc.make_forecast(comparison.best, horizon=5, levels=(50, 80, 95), reference=800.0)
+
+
+def _renamed(forecast: fc.Forecast, name: str) -> fc.Forecast:
+    return dataclasses.replace(forecast, series_name=name)
+
+
+# -- CSV: nothing a spreadsheet would run ------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("cell", "expected"),
+    [
+        # Formula starts neutralised with a leading quote (common practice, OWASP CSV injection).
+        ("=1+1", "'=1+1"),
+        ("+cmd", "'+cmd"),
+        ("@SUM(A1:A2)", "'@SUM(A1:A2)"),
+        ("-cmd|' /C calc'!A0", "'-cmd|' /C calc'!A0"),
+        ("-2.5+1", "'-2.5+1"),
+        ("-", "'-"),
+        ("\t=1", "'\t=1"),
+        ("\r=1", "'\r=1"),
+        # Plain negative numbers stay numbers.
+        ("-2.5", "-2.5"),
+        ("-17", "-17"),
+        ("-1e-3", "-1e-3"),
+        ("-.5", "-.5"),
+        # Everything else passes through.
+        ("hake_t", "hake_t"),
+        ("2026-Q3", "2026-Q3"),
+        ("", ""),
+        (-2.5, -2.5),
+        (3, 3),
+        (None, None),
+    ],
+)
+def test_csv_cell_neutralisation(cell, expected):
+    assert neutralise_cell(cell) == expected
+
+
+def test_comment_line_keeps_text_and_neutralises_pieces_after_commas():
+    line = _comment_line('series: x,=HYPERLINK("http://e.x"), -2,@A1')
+    assert line.startswith("# series: x,")
+    for piece in next(csv.reader([line])):
+        assert not piece.lstrip().startswith(FORMULA_START) or PLAIN_NUMBER.match(piece.strip())
+    assert '"' not in line
+
+
+def test_csv_reads_back_as_the_forecast_table(forecast):
+    text = forecast_csv(forecast, unit="10^8 m^3")
+    back = pd.read_csv(io.StringIO(text), comment="#")
+    assert list(back.columns) == [
+        "time", "step", "mean", "median", "lo50", "hi50", "lo80", "hi80", "lo95", "hi95",
+        "prob_below_reference",
+    ]
+    assert len(back) == 5
+    for col in ("mean", "median", "lo80", "hi95"):
+        pd.testing.assert_series_equal(
+            back[col], forecast.table[col].astype(float).reset_index(drop=True), check_names=False,
+            rtol=1e-5,
+        )
+    assert back["prob_below_reference"].between(0, 1).all()
+
+
+def test_csv_carries_every_caution_as_a_comment(forecast):
+    lines = forecast_csv(forecast).splitlines()
+    for caution in fc.CAUTIONS:
+        assert f"# caution: {caution}" in lines
+
+
+def test_csv_without_reference_leaves_probability_blank(comparison):
+    fcst = fc.make_forecast(comparison.best, horizon=3)
+    back = pd.read_csv(io.StringIO(forecast_csv(fcst)), comment="#")
+    assert back["prob_below_reference"].isna().all()
+
+
+@pytest.mark.parametrize("name", ["=cmd|' /C calc'!A0", "+1,=2+3", "@SUM(1)", 'x"\n=1'])
+def test_csv_never_has_a_formula_cell_even_with_hostile_names(forecast, name):
+    text = forecast_csv(_renamed(forecast, name), unit="=t", dataset_name="-bad,@file")
+    for row in csv.reader(io.StringIO(text)):
+        for cell in row:
+            assert not cell.startswith(FORMULA_START) or PLAIN_NUMBER.match(cell), cell
+
+
+# -- HTML report: offline, escaped, complete ---------------------------------------------------
+
+
+@pytest.fixture(scope="module")
+def report(forecast, comparison, nile) -> str:
+    figs = [
+        ("Forecast", figures.fan_chart(forecast, nile, unit="10^8 m^3")),
+        ("Chance below the reference level", figures.prob_below_figure(forecast)),
+    ]
+    return report_html(forecast, comparison, figures=figs, unit="10^8 m^3", dataset_hash="ab" * 32)
+
+
+def test_report_inlines_plotly_once_and_loads_nothing_from_the_network(report):
+    assert "plotly.js v" in report or "Plotly" in report
+    assert report.count("plotly.js v") <= 1
+    assert not re.search(r"<script[^>]*\bsrc\s*=", report, flags=re.IGNORECASE)
+    assert not re.search(r"<link[^>]*\bhref\s*=\s*['\"]?https?://", report, flags=re.IGNORECASE)
+    assert report.count("Plotly.newPlot") == 2
+
+
+def test_report_records_cautions_hash_versions_and_summary(report, forecast):
+    for caution in fc.CAUTIONS:
+        assert caution in report
+    assert "ab" * 32 in report
+    assert "statsmodels" in report and "plotly" in report
+    assert "80% chance" in report
+    assert forecast.model in report
+
+
+def test_report_escapes_a_script_in_the_series_name(forecast, comparison, nile):
+    hostile = "<script>alert('x')</script>"
+    fcst = _renamed(forecast, hostile)
+    page = report_html(fcst, comparison, figures=[("Forecast", figures.fan_chart(fcst, nile))],
+                       unit="<b>t</b>")
+    assert "<script>alert" not in page
+    assert "&lt;script&gt;alert(&#x27;x&#x27;)&lt;/script&gt;" in page
+    assert "<b>t</b>" not in page

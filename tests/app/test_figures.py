@@ -1,0 +1,140 @@
+"""Figure builders draw what the core computed, on results from real core calls.
+
+Data: the Nile river flow series that statsmodels ships (statsmodels.datasets.nile,
+annual volumes 1871-1970, 10^8 m^3).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+import statsmodels.api as sm
+from scipy import stats
+
+import forecasting_core as fc
+from app import figures
+
+
+@pytest.fixture(scope="module")
+def nile() -> pd.Series:
+    data = sm.datasets.nile.load_pandas().data
+    index = pd.period_range(str(int(data["year"].iloc[0])), periods=len(data), freq="Y")
+    return pd.Series(data["volume"].to_numpy(float), index=index, name="nile")
+
+
+@pytest.fixture(scope="module")
+def comparison(nile: pd.Series) -> fc.Comparison:
+    return fc.compare_models(nile, horizon=5)
+
+
+@pytest.fixture(scope="module")
+def forecast(comparison: fc.Comparison) -> fc.Forecast:
+    return fc.make_forecast(comparison.best, horizon=5, levels=(50, 80, 95), reference=800.0)
+
+
+def _names(fig) -> list[str]:
+    return [t.name for t in fig.data]
+
+
+def test_fan_chart_has_history_bands_median_and_mean(forecast, nile):
+    fig = figures.fan_chart(forecast, nile, unit="10^8 m^3")
+    names = _names(fig)
+    assert names[0] == "Observed"
+    assert [n for n in names if n.endswith("% band")] == ["95% band", "80% band", "50% band"]
+    assert "Median forecast" in names and "Expected (mean)" in names
+    assert fig.layout.yaxis.title.text == "nile (10^8 m^3)"
+
+
+def test_fan_chart_bands_are_the_forecast_table_attached_to_the_last_year(forecast, nile):
+    fig = figures.fan_chart(forecast, nile)
+    upper = next(t for t in fig.data if t.name == "95% band")
+    # first point: the last observation (1970), then the five forecast years
+    assert list(upper.x) == [1970, 1971, 1972, 1973, 1974, 1975]
+    assert upper.y[0] == nile.iloc[-1]
+    np.testing.assert_allclose(upper.y[1:], forecast.table["hi95"].to_numpy(float))
+    median = next(t for t in fig.data if t.name == "Median forecast")
+    np.testing.assert_allclose(median.y[1:], forecast.table["median"].to_numpy(float))
+
+
+def test_fan_chart_draws_the_reference_level(forecast, nile):
+    fig = figures.fan_chart(forecast, nile)
+    assert [s.y0 for s in fig.layout.shapes] == [800.0]
+    assert "800" in fig.layout.annotations[0].text
+
+
+def test_fan_chart_keeps_gaps_in_history_as_gaps(forecast, nile):
+    holed = nile.copy()
+    holed.iloc[10:13] = np.nan
+    fig = figures.fan_chart(forecast, holed)
+    observed = fig.data[0]
+    assert observed.connectgaps is False
+    assert np.isnan(np.asarray(observed.y, float)[10:13]).all()
+
+
+def test_prob_below_shows_percent_per_year(forecast):
+    fig = figures.prob_below_figure(forecast)
+    (bars,) = fig.data
+    np.testing.assert_allclose(bars.y, 100 * forecast.table["prob_below_reference"].to_numpy(float))
+    assert list(bars.x) == [str(t) for t in forecast.table["time"]]
+
+
+def test_prob_below_without_reference_explains_what_to_do(comparison):
+    fcst = fc.make_forecast(comparison.best, horizon=3)
+    fig = figures.prob_below_figure(fcst)
+    assert len(fig.data) == 0
+    assert "reference level" in fig.layout.annotations[0].text
+
+
+def test_hindcast_figure_has_one_path_per_origin(comparison, nile):
+    hc = comparison.hindcast
+    fig = figures.hindcast_figure(hc, nile, model=comparison.best.label)
+    paths = [t for t in fig.data if t.legendgroup == f"hc-{comparison.best.label}"]
+    assert len(paths) == len(hc.origins)
+    bench = [t for t in fig.data if t.legendgroup == "hc-last value"]
+    assert len(bench) == len(hc.origins)
+    assert all(t.visible == "legendonly" for t in bench)
+
+
+def test_skill_figure_has_every_model(comparison):
+    fig = figures.skill_figure(comparison.hindcast)
+    assert set(fig.data[0].y) == {s.model for s in comparison.hindcast.scores}
+
+
+def test_residual_figures(comparison):
+    report = comparison.diagnostics
+    assert len(figures.residuals_figure(report).data[0].y) == len(report.residuals)
+    acf = figures.residual_acf_figure(report)
+    np.testing.assert_allclose(acf.data[0].y, report.acf)
+    assert len(acf.layout.shapes) == 2  # the +-limit lines
+
+
+def test_qq_figure_matches_scipy_probplot(comparison):
+    report = comparison.diagnostics
+    fig = figures.qq_figure(report)
+    res = report.residuals.dropna().to_numpy(float)
+    # Reference: scipy.stats.probplot (ordered residuals against normal order statistics).
+    (theoretical, ordered), _ = stats.probplot(res, dist="norm")
+    np.testing.assert_allclose(fig.data[0].x, theoretical)
+    np.testing.assert_allclose(fig.data[0].y, ordered)
+
+
+@pytest.mark.parametrize(
+    ("value", "frequency", "expected"),
+    [
+        (pd.Period("2026", freq="Y"), "annual", 2026),
+        ("2026", "annual", 2026),
+        ("2026-Q3", "quarterly", "2026-07-01"),
+        (pd.Period("2026Q3", freq="Q"), "quarterly", "2026-07-01"),
+        ("2026-07", "monthly", "2026-07-01"),
+        (pd.Period("2026-07", freq="M"), "monthly", "2026-07-01"),
+    ],
+)
+def test_period_positions(value, frequency, expected):
+    assert figures.period_x(value, frequency) == expected
+
+
+def test_graph_config_offers_png_without_the_logo():
+    config = figures.graph_config("fan chart: hake/2026")
+    assert config["displaylogo"] is False
+    assert config["toImageButtonOptions"] == {"format": "png", "filename": "fan_chart_hake_2026", "scale": 2}
