@@ -151,7 +151,8 @@ def write_long(
     path.write_text("\n".join(lines) + "\n", encoding="utf-8", newline="\n")
 
 
-def main() -> None:
+def main(out: Path = HERE) -> None:
+    """Write every sample file into ``out`` (default: this folder)."""
     landings = {
         "hake_t": hake(_rng(1)),
         "plaice_t": plaice(_rng(2)),
@@ -160,10 +161,10 @@ def main() -> None:
     }
     # Round once so the 2020 vintage is identical, value for value, to the full file.
     landings = {k: np.round(v, 1) for k, v in landings.items()}
-    write_wide(HERE / f"{PLACE}_landings.csv", YEARS, landings, 1)
+    write_wide(out / f"{PLACE}_landings.csv", YEARS, landings, 1)
     keep = YEARS <= VINTAGE_END
     write_wide(
-        HERE / f"{PLACE}_landings_{VINTAGE_END}.csv",
+        out / f"{PLACE}_landings_{VINTAGE_END}.csv",
         YEARS[keep],
         {k: v[keep] for k, v in landings.items()},
         1,
@@ -172,10 +173,10 @@ def main() -> None:
         "hake_kg_per_tow": survey(_rng(5), 38.0, 0.5, 0.20, [1991, 2003, 2004, 2020]),
         "plaice_kg_per_tow": survey(_rng(6), 12.0, 0.4, 0.25, [1991, 2012, 2020]),
     }
-    write_wide(HERE / f"{PLACE}_survey_cpue.csv", SURVEY_YEARS, cpue, 2)
-    write_long(HERE / f"{PLACE}_squid_monthly.csv", "squid", SQUID_MONTHS, squid(_rng(7)), "t", 1)
+    write_wide(out / f"{PLACE}_survey_cpue.csv", SURVEY_YEARS, cpue, 2)
+    write_long(out / f"{PLACE}_squid_monthly.csv", "squid", SQUID_MONTHS, squid(_rng(7)), "t", 1)
     write_wide(
-        HERE / f"{PLACE}_sea_temperature.csv",
+        out / f"{PLACE}_sea_temperature.csv",
         YEARS,
         {"sea_temp_anomaly_degC": sea_temperature(_rng(8))},
         2,
