@@ -1,8 +1,384 @@
-"""Many series at once, in worker processes. STUB."""
+"""Many series at once, in worker processes; the forecast JSON object of DESIGN.md.
+
+Every usable series of a file goes through :func:`compare_models` and :func:`make_forecast`
+in its own task. Tasks run in a :class:`concurrent.futures.ProcessPoolExecutor` (``workers``
+processes) or inline when ``workers`` is 1. Each task computes from its own series and
+settings only, so the results do not depend on the number of workers, and they are returned
+in file order whatever order the tasks finish in. A series that fails gives an entry with an
+``"error"`` message and never stops the others.
+"""
 
 from __future__ import annotations
 
+import hashlib
+import os
+import platform
+from collections.abc import Callable, Mapping
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from pathlib import Path
+from typing import Any
 
-def run_batch(path, horizon: int = 5, **settings):
-    """Compare and forecast every usable series of a file."""
-    raise NotImplementedError
+import pandas as pd
+
+from forecasting_core._results import CAUTIONS, Comparison, Forecast, InputError, Table, _clean
+
+#: Band levels of every exported forecast (percent).
+LEVELS: tuple[int, ...] = (50, 80, 95)
+#: Top-level keys of one forecast object, in order (DESIGN.md contract plus cautions and provenance).
+RECORD_KEYS: tuple[str, ...] = (
+    "series", "observations", "frequency", "transform", "model", "candidates", "hindcast",
+    "forecast", "warnings", "cautions", "provenance",
+)  # fmt: skip
+
+
+def package_versions() -> dict[str, str]:
+    """Versions of Python and of every package that shapes a result."""
+    import numpy
+    import scipy
+    import statsmodels
+
+    from forecasting_core import __version__
+
+    return {
+        "haulcast": __version__,
+        "python": platform.python_version(),
+        "numpy": numpy.__version__,
+        "pandas": pd.__version__,
+        "scipy": scipy.__version__,
+        "statsmodels": statsmodels.__version__,
+    }
+
+
+def series_sha256(y: pd.Series) -> str:
+    """Content hash of one series: its periods and values (NaN included) as text."""
+    text = "\n".join(
+        f"{p}\t{'' if pd.isna(v) else repr(float(v))}" for p, v in zip(y.index, y, strict=True)
+    )
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def provenance(
+    y: pd.Series,
+    settings: Mapping[str, Any],
+    *,
+    data_sha256: str | None = None,
+    source: str | None = None,
+) -> dict[str, Any]:
+    """What produced a result: data hashes, settings and package versions.
+
+    No clock time is recorded, so that the same data and settings give the same object.
+    """
+    return _clean(
+        {
+            "source": source,
+            "data_sha256": data_sha256,
+            "series_sha256": series_sha256(y),
+            "settings": dict(settings),
+            "versions": package_versions(),
+        }
+    )
+
+
+def hindcast_summary(comparison: Comparison) -> dict[str, Any] | None:
+    """The ``hindcast`` object of the contract, for the chosen model.
+
+    ``origins`` is the number of origins; ``mase``, ``rmse`` and ``coverage`` (percent) are
+    the chosen model's scores.
+    """
+    h = comparison.hindcast
+    if h is None:
+        return None
+    s = h.score(comparison.best.label) or (h.scores[0] if h.scores else None)
+    if s is None:
+        return None
+    return _clean(
+        {
+            "origins": len(h.origins),
+            "mase": s.mase,
+            "rmse": s.rmse,
+            "coverage": {"80": s.coverage80, "95": s.coverage95},
+        }
+    )
+
+
+def forecast_record(
+    comparison: Comparison,
+    forecast: Forecast,
+    settings: Mapping[str, Any],
+    *,
+    data_sha256: str | None = None,
+    source: str | None = None,
+    series: pd.Series | None = None,
+) -> dict[str, Any]:
+    """Build the forecast JSON object of DESIGN.md (plus ``cautions`` and ``provenance``).
+
+    Parameters
+    ----------
+    comparison : Comparison
+        The model comparison; its ``best`` is the model reported.
+    forecast : Forecast
+        Bands from that model.
+    settings : Mapping
+        Every setting that produced the result (recorded in ``provenance``).
+    data_sha256, source : str, optional
+        Hash and name of the file the series came from.
+    series : pandas.Series, optional
+        The series (default: the one the chosen model was fitted to).
+    """
+    best = comparison.best
+    warnings: list[str] = []
+    for w in (*comparison.warnings, *forecast.warnings):
+        if w not in warnings:
+            warnings.append(w)
+    h = comparison.hindcast
+    if h is not None and h.verdict and "did not beat" in h.verdict and h.verdict not in warnings:
+        warnings.append(h.verdict)
+    record = {
+        "series": comparison.series_name,
+        "observations": comparison.observations,
+        "frequency": comparison.frequency,
+        "transform": comparison.transform.to_dict(),
+        "model": best.model_dict(),
+        "candidates": [
+            {k: c.to_dict()[k] for k in ("label", "order", "seasonal_order", "aicc", "delta_aicc", "weight")}
+            for c in comparison.accepted
+        ],
+        "hindcast": hindcast_summary(comparison),
+        "forecast": forecast.rows(),
+        "warnings": warnings,
+        "cautions": list(forecast.cautions or CAUTIONS),
+        "provenance": provenance(
+            series if series is not None else best.series,
+            settings,
+            data_sha256=data_sha256,
+            source=source,
+        ),
+    }
+    return _clean(record)
+
+
+def error_record(
+    name: str, message: str, settings: Mapping[str, Any], *, kind: str = "data", **where: Any
+) -> dict[str, Any]:
+    """The entry of a series that could not be forecast.
+
+    ``error_kind`` is ``"data"`` when the series or the settings cannot be used (a plain
+    message says why) and ``"internal"`` for anything else.
+    """
+    return _clean(
+        {
+            "series": name,
+            "error": message,
+            "error_kind": kind,
+            "cautions": list(CAUTIONS),
+            "provenance": {
+                "source": where.get("source"),
+                "data_sha256": where.get("data_sha256"),
+                "settings": dict(settings),
+                "versions": package_versions(),
+            },
+        }
+    )
+
+
+def forecast_one(
+    y: pd.Series,
+    horizon: int,
+    *,
+    transform: str = "auto",
+    reference: float | None = None,
+    levels: tuple[int, ...] = LEVELS,
+    data_sha256: str | None = None,
+    source: str | None = None,
+    **compare_settings: Any,
+) -> dict[str, Any]:
+    """Compare models for one series and forecast it; return the contract object.
+
+    Parameters
+    ----------
+    y : pandas.Series
+        Original-scale values on an annual, quarterly or monthly PeriodIndex.
+    horizon : int
+        Steps ahead at the series' frequency.
+    transform : {"auto", "none", "log", "boxcox"}
+    reference : float, optional
+        Reference level on the original scale (probability of falling below it per step).
+    levels : tuple of int
+        Band levels in percent.
+    **compare_settings
+        Passed to :func:`compare_models` (e.g. a forced ``order``).
+    """
+    return compute_one(
+        y, horizon, transform=transform, reference=reference, levels=levels,
+        data_sha256=data_sha256, source=source, **compare_settings,
+    )[2]  # fmt: skip
+
+
+def compute_one(
+    y: pd.Series,
+    horizon: int,
+    *,
+    transform: str = "auto",
+    reference: float | None = None,
+    levels: tuple[int, ...] = LEVELS,
+    data_sha256: str | None = None,
+    source: str | None = None,
+    **compare_settings: Any,
+) -> tuple[Comparison, Forecast, dict[str, Any]]:
+    """As :func:`forecast_one`, also returning the Comparison and the Forecast."""
+    from forecasting_core._forecast import make_forecast
+    from forecasting_core._search import compare_models
+
+    comparison = compare_models(y, horizon=horizon, transform=transform, **compare_settings)
+    if not comparison.best.ok:
+        raise InputError(
+            comparison.warnings[0] if comparison.warnings else
+            f"no model could be fitted to series {comparison.series_name!r}."
+        )  # fmt: skip
+    forecast = make_forecast(comparison.best, horizon=horizon, levels=levels, reference=reference)
+    settings = {
+        "horizon": horizon,
+        "transform": transform,
+        "reference": reference,
+        "levels": list(levels),
+        **{k: (list(v) if isinstance(v, tuple) else v) for k, v in compare_settings.items()},
+    }
+    record = forecast_record(
+        comparison, forecast, settings, data_sha256=data_sha256, source=source, series=y
+    )
+    return comparison, forecast, record
+
+
+def _settings_of(horizon: int, options: Mapping[str, Any]) -> dict[str, Any]:
+    return {
+        "horizon": horizon,
+        **{k: v for k, v in options.items() if k not in ("source", "data_sha256")},
+    }
+
+
+def _task(name: str, y: pd.Series, horizon: int, options: dict[str, Any]) -> dict[str, Any]:
+    """One batch task (module level, so worker processes can run it)."""
+    settings = _settings_of(horizon, options)
+    where = {"source": options.get("source"), "data_sha256": options.get("data_sha256")}
+    try:
+        y = y.rename(name)
+        return forecast_one(y, horizon, **options)
+    except InputError as exc:
+        return error_record(name, str(exc), settings, **where)
+    except Exception as exc:  # a failing series never stops the others
+        return error_record(
+            name, f"could not be forecast ({type(exc).__name__}: {exc})", settings,
+            kind="internal", **where,
+        )  # fmt: skip
+
+
+def _unusable_message(table: Table, name: str) -> str:
+    info = table.info[name]
+    errors = [p.summary() for p in info.problems if p.severity == "error"]
+    detail = "; ".join(errors) if errors else "no usable values"
+    return f"series {name!r} cannot be used: {detail}"
+
+
+def run_batch(
+    path_or_table: str | Path | Table,
+    horizon: int = 5,
+    *,
+    transform: str = "auto",
+    workers: int | None = None,
+    progress: Callable[[int, int, str], None] | None = None,
+    on_result: Callable[[dict[str, Any]], None] | None = None,
+    **compare_settings: Any,
+) -> list[dict[str, Any]]:
+    """Compare and forecast every usable series of a file.
+
+    Parameters
+    ----------
+    path_or_table : str, Path or Table
+        A CSV/Excel file (read with :func:`read_table`) or a table already read.
+    horizon : int
+        Steps ahead at each series' frequency, 1 to 30.
+    transform : {"auto", "none", "log", "boxcox"}
+    workers : int, optional
+        Worker processes; default the number of cores available. 1 runs inline.
+    progress : callable, optional
+        Called as ``progress(done, total, name)`` in this process each time a series
+        finishes (in finishing order).
+    on_result : callable, optional
+        Called with each series' record as it finishes, just before ``progress``.
+    **compare_settings
+        Passed to :func:`compare_models` for every series; ``reference`` and ``levels`` go to
+        :func:`make_forecast`.
+
+    Returns
+    -------
+    list of dict
+        One forecast object per series in file order (DESIGN.md contract plus ``cautions``
+        and ``provenance``); a series that could not be used or failed has an ``"error"``
+        message instead of the model and forecast keys.
+
+    Raises
+    ------
+    InputError
+        The file cannot be read, or a setting is out of range.
+    """
+    if isinstance(horizon, bool) or not isinstance(horizon, int) or not 1 <= horizon <= 30:
+        raise InputError(f"horizon must be an integer from 1 to 30. Got {horizon!r} instead.")
+    if workers is None:
+        workers = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count() or 1
+    if isinstance(workers, bool) or not isinstance(workers, int) or workers < 1:
+        raise InputError(f"workers must be a positive integer. Got {workers!r} instead.")
+    if isinstance(path_or_table, Table):
+        table = path_or_table
+    else:
+        from forecasting_core._table import read_table
+
+        table = read_table(path_or_table)
+    options = {
+        "transform": transform,
+        "source": table.source,
+        "data_sha256": table.sha256,
+        **compare_settings,
+    }
+    names = list(table.info) or list(table.series)
+    total = len(names)
+    results: dict[str, dict[str, Any]] = {}
+    done = 0
+
+    def finish(name: str, record: dict[str, Any]) -> None:
+        nonlocal done
+        results[name] = record
+        done += 1
+        if on_result is not None:
+            on_result(record)
+        if progress is not None:
+            progress(done, total, name)
+
+    todo = []
+    for name in names:
+        if name in table.series:
+            todo.append(name)
+        else:
+            settings = _settings_of(horizon, options)
+            finish(name, error_record(name, _unusable_message(table, name), settings,
+                                      source=table.source, data_sha256=table.sha256))
+    if workers == 1 or len(todo) <= 1:
+        for name in todo:
+            finish(name, _task(name, table.series[name], horizon, options))
+    else:
+        with ProcessPoolExecutor(max_workers=min(workers, len(todo))) as pool:
+            futures = {
+                pool.submit(_task, name, table.series[name], horizon, options): name
+                for name in todo
+            }
+            for future in as_completed(futures):
+                name = futures[future]
+                try:
+                    record = future.result()
+                except Exception as exc:  # a worker that died takes only its own series
+                    record = error_record(
+                        name, f"could not be forecast (worker stopped: {type(exc).__name__})",
+                        _settings_of(horizon, options), kind="internal",
+                        source=table.source, data_sha256=table.sha256,
+                    )  # fmt: skip
+                finish(name, record)
+    return [results[name] for name in names]

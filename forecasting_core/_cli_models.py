@@ -1,0 +1,360 @@
+"""The ``forecast`` and ``batch`` subcommands (called from ``__main__``).
+
+Exit codes (DESIGN.md): 0 done (warnings allowed), 2 the data or the arguments cannot be used
+(a plain message naming the rows, years, columns or series), 1 anything else. No traceback is
+ever printed.
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+import math
+import re
+import sys
+import warnings
+from collections.abc import Iterable, Sequence
+from pathlib import Path
+from typing import Any, TextIO
+
+from forecasting_core._results import CAUTIONS, InputError
+
+TRANSFORMS = ("none", "log", "boxcox", "auto")
+MAX_HORIZON = 30
+CSV_COLUMNS = (
+    "series", "model", "time", "step", "median", "mean", "lo50", "hi50", "lo80", "hi80",
+    "lo95", "hi95", "prob_below_reference",
+)  # fmt: skip
+#: A cell a spreadsheet would run as a formula starts with one of these.
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+_PLAIN_NUMBER = re.compile(r"^-?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$")
+
+
+# ---------------------------------------------------------------------------------------------
+# Arguments
+# ---------------------------------------------------------------------------------------------
+
+
+def _opt(args: Any, name: str, default: Any = None) -> Any:
+    return getattr(args, name, default)
+
+
+def parse_horizon(value: Any) -> int:
+    """``--horizon``: an integer from 1 to 30 (steps at the series' frequency)."""
+    text = "" if value is None or isinstance(value, bool) else str(value).strip()
+    if not re.fullmatch(r"\+?\d+", text) or not 1 <= int(text) <= MAX_HORIZON:
+        shown = text if re.fullmatch(r"[+-]?\d+", text) else repr(value)
+        raise InputError(f"--horizon must be an integer from 1 to {MAX_HORIZON}. Got {shown} instead.")
+    return int(text)
+
+
+def parse_ints(value: Any, count: int, option: str, example: str) -> tuple[int, ...] | None:
+    """``--order p,d,q`` / ``--seasonal P,D,Q,m``: comma-separated non-negative integers."""
+    if value is None:
+        return None
+    if isinstance(value, Sequence) and not isinstance(value, str):
+        parts = [str(v) for v in value]
+    else:
+        parts = [p.strip() for p in str(value).split(",")]
+    if len(parts) != count or not all(p.isdigit() for p in parts):
+        raise InputError(
+            f"{option} must be {count} non-negative integers separated by commas, such as "
+            f"{example}. Got {value if isinstance(value, str) else ','.join(parts)!r} instead."
+        )
+    return tuple(int(p) for p in parts)
+
+
+def parse_transform(value: Any) -> str:
+    value = "auto" if value is None else str(value)
+    if value not in TRANSFORMS:
+        raise InputError(f"--transform must be one of {', '.join(TRANSFORMS)}. Got {value!r} instead.")
+    return value
+
+
+def parse_reference(value: Any) -> float | None:
+    if value is None:
+        return None
+    try:
+        ref = float(value)
+    except (TypeError, ValueError):
+        ref = math.nan
+    if not math.isfinite(ref):
+        raise InputError(f"--reference must be a number on the series' scale. Got {value!r} instead.")
+    return ref
+
+
+def _read(path: Any):
+    from forecasting_core._table import read_table
+
+    if path is None or not Path(str(path)).is_file():
+        raise InputError(f"FILE must be an existing CSV or Excel file. Got {str(path)!r} instead.")
+    return read_table(str(path))
+
+
+def _pick_series(table, name: Any):
+    if name is None:
+        raise InputError("--series must name one series of the file.")
+    name = str(name)
+    if name in table.series:
+        return table.series[name]
+    if name in table.info:
+        errors = [p.summary() for p in table.info[name].problems if p.severity == "error"]
+        raise InputError(
+            f"series {name!r} cannot be used: " + ("; ".join(errors) or "it has no usable values.")
+        )
+    names = ", ".join(table.info) or "(none)"
+    raise InputError(f"--series must be one of {names}. Got {name!r} instead.")
+
+
+# ---------------------------------------------------------------------------------------------
+# Output
+# ---------------------------------------------------------------------------------------------
+
+
+def _decimals(values: Iterable[float]) -> int:
+    finite = [abs(v) for v in values if v is not None and math.isfinite(v)]
+    top = max(finite, default=1.0) or 1.0
+    return int(min(4, max(0, 3 - math.floor(math.log10(top)))))
+
+
+def _num(v: float | None, dec: int) -> str:
+    return "-" if v is None or not math.isfinite(v) else f"{v:.{dec}f}"
+
+
+def forecast_text(record: dict[str, Any], verdict: str | None = None, unit: str | None = None) -> str:
+    """Readable report of one forecast object."""
+    lines = []
+    unit_txt = f" ({unit})" if unit else ""
+    tr = record["transform"]
+    tr_txt = tr["name"] + (f", lambda {tr['lambda']:.3f}" if tr.get("lambda") is not None else "")
+    lines.append(
+        f"{record['series']}{unit_txt}: {record['observations']} {record['frequency']} values, "
+        f"transform {tr_txt}"
+    )
+    model = record["model"]
+    n_cand = len(record["candidates"])
+    aicc = model.get("aicc")
+    aicc_txt = f", AICc {aicc:.2f}" if aicc is not None else ""
+    lines.append(
+        f"Model: {model['label']}{aicc_txt}"
+        + (f" (best of {n_cand} accepted candidates)" if n_cand > 1 else "")
+    )
+    if verdict:
+        lines.append(f"Hindcast: {verdict}")
+    elif record.get("hindcast"):
+        hc = record["hindcast"]
+        lines.append(f"Hindcast over {hc['origins']} origins: MASE {_num(hc['mase'], 2)}")
+    lines.append("")
+    rows = record["forecast"]
+    levels = sorted(rows[0]["intervals"], key=int) if rows else []
+    dec = _decimals(v for r in rows for v in (r["median"], r["mean"]))
+    ref = record.get("provenance", {}).get("settings", {}).get("reference")
+    head = ["time", "median", "mean", *[f"{lv}% range" for lv in levels]]
+    if ref is not None:
+        head.append(f"P(below {ref:g})")
+    table = [head]
+    for r in rows:
+        cells = [str(r["time"]), _num(r["median"], dec), _num(r["mean"], dec)]
+        for lv in levels:
+            lo, hi = r["intervals"][lv]
+            cells.append(f"{_num(lo, dec)} to {_num(hi, dec)}")
+        if ref is not None:
+            p = r["prob_below_reference"]
+            cells.append("-" if p is None else f"{100 * p:.0f}%")
+        table.append(cells)
+    widths = [max(len(row[i]) for row in table) for i in range(len(head))]
+    for k, row in enumerate(table):
+        lines.append("  ".join(c.rjust(w) if i else c.ljust(w) for i, (c, w) in enumerate(zip(row, widths, strict=True))))
+        if k == 0:
+            lines.append("  ".join("-" * w for w in widths))
+    lines.append("")
+    if record["warnings"]:
+        lines.append("Warnings:")
+        lines.extend(f"  - {w}" for w in record["warnings"])
+    lines.append("Cautions:")
+    lines.extend(f"  - {c}" for c in record.get("cautions", CAUTIONS))
+    return "\n".join(lines)
+
+
+def safe_cell(value: Any) -> str:
+    """A CSV cell a spreadsheet will not run as a formula.
+
+    Text starting with ``= + - @`` (or a tab or carriage return) gets a leading single
+    quote, except plain numbers such as ``-0.45``, which stay numbers (common practice for
+    CSV injection; OWASP "CSV Injection").
+    """
+    if value is None:
+        return ""
+    if isinstance(value, float):
+        return "" if not math.isfinite(value) else repr(value)
+    text = str(value)
+    if text.startswith(_FORMULA_START) and not _PLAIN_NUMBER.match(text):
+        return "'" + text
+    return text
+
+
+def csv_rows(record: dict[str, Any]) -> list[list[str]]:
+    """Forecast rows of one record in :data:`CSV_COLUMNS` order."""
+    out = []
+    for r in record.get("forecast", []):
+        row = {
+            "series": record["series"],
+            "model": record["model"]["label"],
+            "time": r["time"],
+            "step": r["step"],
+            "median": r["median"],
+            "mean": r["mean"],
+            "prob_below_reference": r["prob_below_reference"],
+        }
+        for lv, (lo, hi) in r["intervals"].items():
+            row[f"lo{lv}"], row[f"hi{lv}"] = lo, hi
+        out.append([safe_cell(row.get(c)) for c in CSV_COLUMNS])
+    return out
+
+
+def write_forecast_csv(path: Path | str, records: Sequence[dict[str, Any]], source: str | None = None) -> None:
+    """Write forecast rows with a comment header holding the cautions."""
+    with open(path, "w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow([safe_cell(f"# Haulcast forecasts{' from ' + source if source else ''}")])
+        for c in CAUTIONS:
+            w.writerow([f"# Caution: {c}"])
+        w.writerow(list(CSV_COLUMNS))
+        for record in records:
+            w.writerows(csv_rows(record))
+
+
+def _dump(obj: Any, out: TextIO) -> None:
+    json.dump(obj, out, indent=2, allow_nan=False)
+    out.write("\n")
+
+
+# ---------------------------------------------------------------------------------------------
+# Subcommands
+# ---------------------------------------------------------------------------------------------
+
+
+def _guard(run, args: Any) -> int:
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return run(args)
+    except InputError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("error: interrupted.", file=sys.stderr)
+        return 1
+    except Exception as exc:  # never a traceback
+        print(f"error: the command failed ({type(exc).__name__}: {exc}).", file=sys.stderr)
+        return 1
+
+
+def _forecast(args: Any) -> int:
+    from forecasting_core._batch import compute_one
+
+    horizon = parse_horizon(_opt(args, "horizon"))
+    order = parse_ints(_opt(args, "order"), 3, "--order", "1,1,0")
+    seasonal = parse_ints(_opt(args, "seasonal"), 4, "--seasonal", "0,1,1,12")
+    if seasonal is not None and order is None:
+        raise InputError("--seasonal needs --order as well. Got --seasonal only instead.")
+    transform = parse_transform(_opt(args, "transform"))
+    reference = parse_reference(_opt(args, "reference"))
+    table = _read(_opt(args, "file"))
+    y = _pick_series(table, _opt(args, "series"))
+    settings: dict[str, Any] = {}
+    if order is not None:
+        settings["order"] = order
+        settings["seasonal_order"] = seasonal
+    if _opt(args, "no_constant", False):
+        settings["constant"] = False
+    comparison, _, record = compute_one(
+        y, horizon, transform=transform, reference=reference,
+        data_sha256=table.sha256, source=table.source, **settings,
+    )  # fmt: skip
+    csv_path = _opt(args, "csv")
+    if csv_path:
+        write_forecast_csv(csv_path, [record], source=table.source)
+    if _opt(args, "json", False):
+        _dump(record, sys.stdout)
+    else:
+        verdict = comparison.hindcast.verdict if comparison.hindcast else None
+        unit = table.info[str(_opt(args, "series"))].unit if str(_opt(args, "series")) in table.info else None
+        print(forecast_text(record, verdict, unit))
+        if csv_path:
+            print(f"\nForecast table written to {csv_path}")
+    return 0
+
+
+def _batch(args: Any) -> int:
+    from forecasting_core._batch import run_batch
+
+    horizon = parse_horizon(_opt(args, "horizon"))
+    transform = parse_transform(_opt(args, "transform"))
+    workers = _opt(args, "workers")
+    if workers is not None:
+        try:
+            workers = int(workers)
+        except (TypeError, ValueError):
+            workers = -1
+        if workers < 1:
+            raise InputError(f"--workers must be a positive integer. Got {_opt(args, 'workers')!r} instead.")
+    out_dir = _opt(args, "out")
+    table = _read(_opt(args, "file"))
+
+    status: dict[str, str] = {}
+
+    def on_result(record: dict[str, Any]) -> None:
+        status[record["series"]] = "failed" if "error" in record else "done"
+
+    def on_progress(done: int, total: int, name: str) -> None:
+        print(f"[{done}/{total}] {name} {status.get(name, 'done')}", file=sys.stderr, flush=True)
+
+    records = run_batch(
+        table, horizon, transform=transform, workers=workers, progress=on_progress,
+        on_result=on_result,
+    )  # fmt: skip
+    ok = [r for r in records if "error" not in r]
+    failed = [r for r in records if "error" in r]
+    if out_dir:
+        out = Path(str(out_dir))
+        out.mkdir(parents=True, exist_ok=True)
+        write_forecast_csv(out / "forecasts.csv", ok, source=table.source)
+        with open(out / "models.json", "w", encoding="utf-8") as fh:
+            _dump(records, fh)
+    if _opt(args, "json", False):
+        _dump(records, sys.stdout)
+    else:
+        print(f"{table.source}: {len(ok)} of {len(records)} series forecast, horizon {horizon}")
+        for r in ok:
+            first = r["forecast"][0]
+            dec = _decimals([first["median"]])
+            lo, hi = first["intervals"].get("80", [None, None])
+            hc = r.get("hindcast") or {}
+            mase = f", hindcast MASE {hc['mase']:.2f}" if hc.get("mase") is not None else ""
+            print(
+                f"  {r['series']}: {r['model']['label']}; {first['time']} median "
+                f"{_num(first['median'], dec)} (80% {_num(lo, dec)} to {_num(hi, dec)}){mase}"
+            )
+            for w in r["warnings"]:
+                print(f"      warning: {w}")
+        if out_dir:
+            print(f"Written: {Path(str(out_dir)) / 'forecasts.csv'} and {Path(str(out_dir)) / 'models.json'}")
+        print("Cautions:")
+        for c in CAUTIONS:
+            print(f"  - {c}")
+    for r in failed:
+        print(f"failed: {r['series']}: {r['error']}", file=sys.stderr)
+    if ok:
+        return 0
+    return 1 if any(r.get("error_kind") == "internal" for r in failed) else 2
+
+
+def _cli_forecast(args: Any) -> int:
+    """``forecast FILE --series NAME --horizon H ...``; returns the exit code."""
+    return _guard(_forecast, args)
+
+
+def _cli_batch(args: Any) -> int:
+    """``batch FILE --horizon H ...``; returns the exit code."""
+    return _guard(_batch, args)
