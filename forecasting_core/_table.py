@@ -157,6 +157,12 @@ def read_table(source: str | Path | bytes, *, name: str | None = None) -> Table:
     return _Reader(grid, label_, sha).read()
 
 
+def _short(text: str, limit: int = 40) -> str:
+    """A cell text cut to ``limit`` characters for messages."""
+    text = " ".join(text.split())
+    return text if len(text) <= limit else text[: limit - 3] + "..."
+
+
 def _too_big(size: int) -> str:
     return (
         f"the file must be at most {MAX_FILE_BYTES // (1024 * 1024)} MB. Got {size / (1024 * 1024):.1f} MB "
@@ -197,6 +203,7 @@ class _Reader:
         if not data:
             self.note("error", f"the file has a header (row {h + 1}) but no data rows; add the values below the header.", row=h + 1)
             return self.table("wide", {}, {})
+        self.raw_header = header
         names, keep = self._columns(header, data, len(header_raw) if self.grid.delimiter else width, h + 1)
         tcol, partner = self._time_column(names, keep, data)
         units_row = self._units_row(names, keep, tcol, partner, data)
@@ -210,23 +217,23 @@ class _Reader:
         return self._read_rows(names, value_cols, tcol, partner, data, units_row)
 
     def _header_index(self, rows: list[list], filled: list[int]) -> int:
-        """First non-empty row, skipping title lines (a single cell above a wider table)."""
+        """First row as wide as the table, skipping title lines above it (fewer cells)."""
         def count(i: int) -> int:
             return sum(not is_empty(c) for c in rows[i])
 
-        first = filled[0]
-        if count(first) == 1:
-            wider = next((i for i in filled[:12] if count(i) >= 2), None)
-            if wider is not None:
-                skipped = [i for i in filled if i < wider]
-                shown = "; ".join(repr(cell_text(next(c for c in rows[i] if not is_empty(c)))) for i in skipped[:3])
-                self.note(
-                    "warning",
-                    f"{rows_text([i + 1 for i in skipped])} above the header (row {wider + 1}) were skipped as title lines: {shown}.",
-                    row=skipped[0] + 1,
-                )
-                return wider
-        return first
+        widths = Counter(count(i) for i in filled[:60])
+        typical = max(w for w, n in widths.items() if n == max(widths.values()))
+        header = next((i for i in filled[:12] if count(i) >= typical), filled[0])
+        skipped = [i for i in filled if i < header]
+        if skipped:
+            shown = "; ".join(repr(_short(" ".join(cell_text(c) for c in rows[i] if not is_empty(c)))) for i in skipped[:3])
+            self.note(
+                "warning",
+                f"{rows_text([i + 1 for i in skipped])} above the header (row {header + 1}) "
+                f"{'was skipped as a title line' if len(skipped) == 1 else 'were skipped as title lines'}: {shown}.",
+                row=skipped[0] + 1,
+            )
+        return header
 
     def _drop_empty_rows(self, data: list[tuple[int, list]]) -> list[tuple[int, list]]:
         empty = [r for r, cells in data if all(is_empty(c) for c in cells)]
@@ -266,6 +273,9 @@ class _Reader:
         keep: list[int] = []
         for j in range(width):
             name = header[j]
+            if not name and not has_data[j]:
+                names.append("")
+                continue
             if j >= header_len:
                 names.append(f"column {j + 1}")
                 continue
@@ -339,6 +349,7 @@ class _Reader:
     # -- rows ----------------------------------------------------------------------------
     def _read_rows(self, names, value_cols, tcol, partner, data, units_row) -> Table:
         tname = names[tcol]
+        self.tcol = tcol
         misaligned = getattr(self, "misaligned", set())
         parsed: list[tuple[int, str, tuple[int, ...], list]] = []
         lost: dict[int, str] = {}  # row -> why its values cannot be placed in time
@@ -361,7 +372,7 @@ class _Reader:
                 parsed.append((row, kind, parts, cells))
                 continue
             if kind == "words" or (kind == "empty" and not has_values):
-                what = f"{raw!r} is not a time" if raw else "it has no time"
+                what = f"{_short(raw)!r} is not a time" if raw else "it has no time"
                 self.note("warning", f"row {row} was skipped: {what} (a total, note or footer row?).", row=row, column=tname)
                 continue
             if kind == "range":
@@ -369,7 +380,7 @@ class _Reader:
             elif kind == "empty":
                 why = "the time cell is empty"
             else:
-                why = f"{raw!r} is not a year, month, quarter or date"
+                why = f"{_short(raw)!r} is not a year, month, quarter or date"
             lost[row] = why
             if capped < 10:
                 self.note("error", f"row {row}: {why}; write the time as 1998, 1998-07, 1998-Q3 or 1998-07-01. The row's values were not used.", row=row, column=tname)
@@ -396,16 +407,17 @@ class _Reader:
             return "", {}
         kinds = Counter(k for _, k, _, _ in parsed)
         main = kinds.most_common(1)[0][0]
-        odd = [(row, k) for row, k, _, _ in parsed if k != main]
+        odd = [(row, k, cells) for row, k, _, cells in parsed if k != main]
         names = {"Y": "a year", "Q": "a quarter", "M": "a month", "D": "a date"}
-        for row, k in odd[:10]:
+        for row, k, cells in odd[:10]:
             self.note(
                 "error",
-                f"row {row}: the time is {names[k]} but most rows have {names[main]}; one file holds one frequency. The row's values were not used.",
+                f"row {row}: the time {_short(cell_text(cells[self.tcol]))!r} is {names[k]} but most rows have {names[main]}; "
+                "one file holds one frequency. The row's values were not used.",
                 row=row,
                 column=tname,
             )
-        self.mixed = {row for row, _ in odd}
+        self.mixed = {row for row, _, _ in odd}
         good = [(row, parts) for row, k, parts, _ in parsed if k == main]
         if main == "D":
             months = sorted({month_ordinal("D", p) for _, p in good})
@@ -527,7 +539,7 @@ class _Reader:
                 example = next((r, cell_text(c[j])) for r, _, c in rows_ok if parse_number(c[j], self.decimal)[0] == "text")
                 self.note(
                     "warning",
-                    f"column {names[j]!r} holds text, not numbers (e.g. {example[1]!r} in row {example[0]}); it was not read as a series. "
+                    f"column {names[j]!r} holds text, not numbers (e.g. {_short(example[1])!r} in row {example[0]}); it was not read as a series. "
                     "If it is one, write only numbers in it.",
                     row=example[0],
                     column=names[j],
@@ -539,7 +551,7 @@ class _Reader:
                 obs.append(Obs(row, ordinal, kind, value, cell_text(cells[j])))
             lost_rows = [r for r in lost if not is_empty(cells_by_row[r][j])]
             pre = self._lost_problems({names[j]: lost_rows}, lost).get(names[j], [])
-            unit = units_row[1].get(j) if units_row and j in units_row[1] else header_unit(names[j])
+            unit = units_row[1].get(j) if units_row and j in units_row[1] else header_unit(self.raw_header[j])
             info, s = build_series(names[j], obs, freq, unit=unit, decimal=self.decimal, problems=pre)
             infos[names[j]] = info
             if s is not None:
@@ -577,7 +589,7 @@ class _Reader:
         series: dict[str, pd.Series] = {}
         for name, obs in obs_by.items():
             self._order_warning(freq, [(o.row, o.ordinal) for o in obs], name)
-            default_unit = header_unit(names[nums[0]]) if len(nums) == 1 else None
+            default_unit = header_unit(self.raw_header[nums[0]]) if len(nums) == 1 else None
             info, s = build_series(name, obs, freq, unit=default_unit, decimal=self.decimal, problems=pre.get(name))
             infos[name] = info
             if s is not None:

@@ -289,13 +289,15 @@ def detect_decimal(cells: Iterable[Cell], delimiter: str | None) -> tuple[str, P
         return mark, None
     example = ambiguous[0]
     reading = parse_number(example, mark)[1]
-    why = "a semicolon-separated file" if mark == "," else "no cell shows a decimal comma"
+    why = "the file is semicolon-separated" if mark == "," else "no cell shows a decimal comma"
+    char = "," if "," in example else "."
+    role = "the decimal mark" if char == mark else "a thousands separator"
     return mark, Problem(
         "warning",
         f"values such as {example!r} could mean {example.replace(',', '').replace('.', '')} or "
-        f"{example.replace(',', '.')}; they were read with a decimal {'comma' if mark == ',' else 'point'} "
-        f"({example!r} = {reading:g}) because {why}. Check the values; writing decimals or removing "
-        "thousands separators removes the doubt.",
+        f"{example.replace(',', '.')}; the {char!r} was read as {role} ({example!r} = {reading:g}) "
+        f"because {why}. Check the values; writing decimals or removing thousands separators "
+        "removes the doubt.",
     )
 
 
@@ -391,8 +393,8 @@ def month_ordinal(kind: str, parts: Sequence[int]) -> int:
     return parts[0] * 12 + (parts[1] - 1 if len(parts) > 1 else 0)
 
 
-def compact(values: Sequence[int], fmt=str, sep: str = "-") -> str:
-    """Write sorted integers compactly as ranges: ``1984, 1990-1992``."""
+def compact(values: Sequence[int], fmt=str, sep: str = "-", limit: int = 12) -> str:
+    """Write sorted integers compactly as ranges: ``1984, 1990-1992`` (at most ``limit`` parts)."""
     out: list[str] = []
     vals = sorted(set(values))
     i = 0
@@ -407,4 +409,6 @@ def compact(values: Sequence[int], fmt=str, sep: str = "-") -> str:
         else:
             out.append(f"{fmt(vals[i])}{sep}{fmt(vals[j])}")
         i = j + 1
+    if len(out) > limit:
+        return ", ".join(out[:limit]) + f", ... ({len(vals)} in all)"
     return ", ".join(out)

@@ -77,8 +77,17 @@ def rows_text(rows: list[int]) -> str:
     return ("row " if len(set(rows)) == 1 else "rows ") + text
 
 
+def words_for(freq: str) -> str:
+    return "years" if freq == "annual" else "periods"
+
+
 def _num(v: float) -> str:
     return f"{v:.10g}"
+
+
+def _short(text: str, limit: int = 40) -> str:
+    text = " ".join(text.split())
+    return text if len(text) <= limit else text[: limit - 3] + "..."
 
 
 def _text_hint(raw: str, decimal: str) -> str:
@@ -115,7 +124,7 @@ def build_series(
     # Text in numeric cells: missing, with a warning per cell (the first MAX_LISTED).
     texts = [o for o in obs if o.kind == "text"]
     for o in texts[:MAX_LISTED]:
-        add("warning", f"{o.raw!r} is not a number; the cell was read as missing.{_text_hint(o.raw, decimal)}", o.row, o.ordinal)
+        add("warning", f"{_short(o.raw)!r} is not a number; the cell was read as missing.{_text_hint(o.raw, decimal)}", o.row, o.ordinal)
     if len(texts) > MAX_LISTED:
         rest = texts[MAX_LISTED:]
         add(
@@ -148,6 +157,7 @@ def build_series(
     values: dict[int, float] = {}
     source_row: dict[int, int] = {}
     explicit_missing: dict[int, Obs] = {}
+    conflicts: list[tuple[int, int]] = []
     for ordinal in sorted(by_time):
         group = sorted(by_time[ordinal], key=lambda o: o.row)
         nums = [o for o in group if o.kind == "num"]
@@ -155,8 +165,10 @@ def build_series(
         distinct = sorted({o.value for o in nums})
         where = f"{label(freq, ordinal)} appears in rows {compact(rows)}"
         if len(distinct) > 1:
-            shown = " and ".join(f"{_num(o.value)} (row {o.row})" for o in nums[:4])
-            add("error", f"{where} with different values: {shown}. Keep one row per period and delete the others.", nums[1].row, ordinal)
+            conflicts.append((ordinal, nums[1].row))
+            if len(conflicts) <= 5:
+                shown = " and ".join(f"{_num(o.value)} (row {o.row})" for o in nums[:4])
+                add("error", f"{where} with different values: {shown}. Keep one row per period and delete the others.", nums[1].row, ordinal)
         elif len(group) > 1 and nums and len(nums) < len(group):
             add("warning", f"{where}; only row {nums[0].row} has a value ({_num(nums[0].value)}), which was used.", group[0].row, ordinal)
         elif len(group) > 1 and nums:
@@ -167,6 +179,15 @@ def build_series(
         else:
             explicit_missing[ordinal] = group[0]
 
+    if len(conflicts) > 5:
+        rest = conflicts[5:]
+        add(
+            "error",
+            f"{len(rest)} more {words_for(freq)} appear in several rows with different values "
+            f"({times_text(freq, [o for o, _ in rest])}).",
+            rest[0][1],
+            rest[0][0],
+        )
     if not values:
         message = (
             "the column has a header but no values; add the values or delete the column."
@@ -187,15 +208,16 @@ def build_series(
         add(
             "warning",
             f"empty or NA cells in {rows_text([o.row for o in blank])} "
-            f"({times_text(freq, [o.ordinal for o in blank])}); they are kept as missing values.",
+            f"({times_text(freq, [o.ordinal for o in blank])}); kept as missing.",
             blank[0].row,
             blank[0].ordinal,
         )
     if absent:
         add(
             "warning",
-            f"{len(absent)} {words} inside {label(freq, first)}-{label(freq, last)} have no row in the file: "
-            f"{times_text(freq, absent)}; they are kept as missing values (gaps), not filled in.",
+            f"{len(absent)} {words if len(absent) > 1 else words[:-1]} inside {label(freq, first)}-{label(freq, last)} "
+            f"{'have' if len(absent) > 1 else 'has'} no row in the file: "
+            f"{times_text(freq, absent)}; kept as missing (gaps), not filled in.",
             None,
             absent[0],
         )
