@@ -275,9 +275,11 @@ def assess_stationarity(
                 tests.append((_adf if test == "ADF" else _kpss)(x, reg, k, sd))
         correlograms.append(_correlogram(x, k, sd, freq))
 
-    d, _ = _kpss_order(base_filled.to_numpy(dtype=float), alpha)
+    d, sequence = _kpss_order(base_filled.to_numpy(dtype=float), alpha)
+    capped = d == MAX_D and sequence[-1].pvalue < alpha
     adf_d = _adf_order(tests, alpha)
-    disagree = adf_d != d
+    # ADF never rejecting (adf_d None) agrees with a capped KPSS sequence: both want more than 2.
+    disagree = not (adf_d == d or (adf_d is None and capped))
     verdict = _verdict(name, freq, m, spec, d, adf_d, sd, strength, tests, gaps, alpha)
     return StationarityReport(
         series_name=name,
@@ -385,12 +387,19 @@ def _verdict(
             f"Look at the plot for a step change. With d = {d} a model follows the new level but its bands "
             f"widen with the horizon; a model with d = {adf_d} fitted after the change may suit better."
         )
+    elif adf_d is None and capped:
+        parts.append(
+            "ADF does not reject a unit root even on the second difference either: both tests say "
+            "two differences may not be enough."
+        )
     else:
         where = f"until {after[adf_d]}" if adf_d is not None else "even on the second difference"
+        other = d + 1 if d < MAX_D else d - 1
         parts.append(
             f"ADF and KPSS disagree: ADF does not reject a unit root {where}, while KPSS keeps a stable "
             f"level at d = {d}. ADF has little power on short or weakly persistent series, so the KPSS "
-            f"choice stands, but d is uncertain: compare models with d = {d} and d = {d + 1} on the hindcast."
+            f"choice stands, but d is uncertain: compare models with d = {min(d, other)} and "
+            f"d = {max(d, other)} on the hindcast."
         )
     if gaps:
         unit = _UNIT[freq][0 if len(gaps) == 1 else 1]
