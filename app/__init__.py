@@ -38,7 +38,7 @@ from typing import Any
 import dash
 from dash import Input, Output, dcc, html
 from dash import _callback as _dash_callback
-from flask import Flask
+from flask import Flask, redirect, request
 
 import forecasting_core as fc
 from app.cache import init_cache
@@ -141,6 +141,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> dash.Dash:
         on_error=_on_error,
     )
     _attach_pages(app)
+    server.before_request(_root_to_intake)
     app.layout = _shell_layout
     _register_shell_callbacks(app)
     return app
@@ -358,6 +359,14 @@ def _register_shell_callbacks(app: dash.Dash) -> None:
             "hc-nav__link hc-nav__link--current" if path == page_path else "hc-nav__link"
             for _module, page_path, *_ in PAGES
         ]
+
+
+def _root_to_intake() -> Any:
+    """``/`` opens Intake (the team-server home page will take ``/`` over)."""
+    if request.path == "/":
+        query = request.query_string.decode("latin-1")
+        return redirect("/intake" + (f"?{query}" if query else ""), code=302)
+    return None
 
 
 def _on_error(err: Exception) -> None:

@@ -1,0 +1,266 @@
+"""Pieces of the Intake page built from core results: the problems table, the series list,
+the transform note and the stationarity test table. Pure functions (results in, Dash
+components out), kept apart from the page's layout and callbacks.
+"""
+
+from __future__ import annotations
+
+import re
+from typing import Any
+
+from dash import html
+
+import forecasting_core as fc
+from app.state import TRANSFORM_LABELS
+from app.ui import alert, fmt_number, html_table, severity_badge, stat_card, stat_row
+
+#: Problems shown in the table at most (the rest are counted).
+MAX_PROBLEM_ROWS = 300
+
+
+def dataset_options(store: Any, uploads: list[str]) -> list[dict[str, Any]]:
+    options = []
+    for meta in store.list(uploads):
+        note = "demo data" if meta.sample else "your upload"
+        options.append({"label": f"{meta.filename} \u00b7 {note}", "value": meta.id})
+    return options
+
+
+def series_options(table: fc.Table) -> list[dict[str, Any]]:
+    options = []
+    for name, info in table.info.items():
+        unit = f" ({info.unit})" if info.unit else ""
+        if info.usable and name in table.series:
+            options.append(
+                {
+                    "label": f"{name}{unit} \u00b7 {info.frequency}, {info.start}\u2013{info.end}",
+                    "value": name,
+                }
+            )
+        else:
+            options.append(
+                {"label": f"{name}{unit} \u00b7 not usable", "value": name, "disabled": True}
+            )
+    return options
+
+
+def upload_message(store: Any, dataset_id: str) -> html.Div:
+    meta = store.meta(dataset_id)
+    table = store.load_table(dataset_id)
+    usable = len(table.series)
+    total = len(table.info)
+    n_err, n_warn = len(table.errors), len(table.warnings)
+    text = (
+        f"Read {meta.filename}: {total} series, {usable} usable; "
+        f"{n_err} error{'s' if n_err != 1 else ''} and {n_warn} warning{'s' if n_warn != 1 else ''}."
+    )
+    kind = "ok" if usable and not n_err else ("warning" if usable else "error")
+    return alert(text, kind, title="Uploaded")
+
+
+def _problem_rows(problems: tuple[fc.Problem, ...]) -> list[dict[str, Any]]:
+    rows = []
+    for p in problems[:MAX_PROBLEM_ROWS]:
+        rows.append(
+            {
+                "severity": severity_badge(p.severity),
+                "row": "" if p.row is None else str(p.row),
+                "time": p.time or "",
+                "column": p.column or "",
+                "message": p.message,
+                "_class": f"hc-row--{p.severity}",
+            }
+        )
+    return rows
+
+
+def problems_view(table: fc.Table) -> Any:
+    """The problems table (severity by icon, word and colour; file row; year)."""
+    if not table.problems:
+        return alert(
+            "No problems found: every cell was read as a number or left blank on purpose.",
+            "ok",
+            title="Clean",
+        )
+    ordered = tuple(sorted(table.problems, key=lambda p: p.severity != "error"))
+    more = len(ordered) - MAX_PROBLEM_ROWS
+    caption = f"{more} more problems are not shown; fix the ones above first." if more > 0 else None
+    return html.Div(
+        html_table(
+            _problem_rows(ordered),
+            [
+                ("severity", "Severity"),
+                ("row", "File row"),
+                ("time", "Year / period"),
+                ("column", "Column"),
+                ("message", "What was found"),
+            ],
+            id="intake-problems-table",
+            numeric=("row",),
+            caption=caption,
+        ),
+        className="hc-table-wrap",
+    )
+
+
+def summary_view(table: fc.Table) -> html.Div:
+    usable = len(table.series)
+    total = len(table.info)
+    n_err, n_warn = len(table.errors), len(table.warnings)
+    return stat_row(
+        [
+            stat_card(
+                "Layout",
+                table.layout,
+                "one column per series" if table.layout == "wide" else "series, time, value",
+            ),
+            stat_card(
+                "Usable series",
+                f"{usable} of {total}",
+                tone="good" if usable == total and total else ("warning" if usable else "error"),
+            ),
+            stat_card(
+                "Errors",
+                str(n_err),
+                "series cannot be used" if n_err else "none",
+                tone="error" if n_err else "good",
+            ),
+            stat_card(
+                "Warnings",
+                str(n_warn),
+                "usable, with care" if n_warn else "none",
+                tone="warning" if n_warn else "good",
+            ),
+        ]
+    )
+
+
+def series_table_view(table: fc.Table) -> Any:
+    rows = []
+    for name, info in table.info.items():
+        usable = info.usable and name in table.series
+        rows.append(
+            {
+                "name": html.Strong(name),
+                "unit": info.unit or "\u2014",
+                "frequency": info.frequency,
+                "years": f"{info.start}\u2013{info.end}",
+                "observations": str(info.observations),
+                "missing": str(info.missing),
+                "status": severity_badge("ok") if usable else severity_badge("error"),
+                "_class": None if usable else "hc-row--error",
+            }
+        )
+    if not rows:
+        return alert("No series were found in this file.", "error")
+    return html.Div(
+        html_table(
+            rows,
+            [
+                ("name", "Series"),
+                ("unit", "Unit"),
+                ("frequency", "Frequency"),
+                ("years", "Years"),
+                ("observations", "Values"),
+                ("missing", "Missing"),
+                ("status", "Usable"),
+            ],
+            id="intake-series-list",
+            numeric=("observations", "missing"),
+        ),
+        className="hc-table-wrap",
+    )
+
+
+def transform_note(choice: str, spec: fc.TransformSpec) -> list[Any]:
+    lam = f" (\u03bb = {spec.lam:.3f})" if spec.name == "boxcox" and spec.lam is not None else ""
+    lead = "Automatic chose " if choice == "auto" else "Using "
+    parts: list[Any] = [
+        html.Strong(f"{lead}{TRANSFORM_LABELS.get(spec.name, spec.name).lower()}{lam}.")
+    ]
+    reason = re.sub(
+        r"^\s*(auto(matic)?|chosen)\s*:\s*\w+\s*,?\s*", "", spec.reason or "", flags=re.IGNORECASE
+    )
+    if reason and reason.lower() != "chosen by the user":
+        parts.append(" " + reason[0].upper() + reason[1:].rstrip(".") + ".")
+    return parts
+
+
+def pvalue_text(t: fc.StationarityTest) -> str:
+    bound = getattr(t, "pvalue_bound", None)
+    if t.pvalue == t.pvalue and t.pvalue < 0.001 and bound is None:
+        return "< 0.001"
+    text = fmt_number(t.pvalue, 2 if t.pvalue >= 0.01 else 1)
+    if bound == "at most":
+        return f"\u2264 {text}"
+    if bound == "at least":
+        return f"\u2265 {text}"
+    return text
+
+
+def tests_view(report: fc.StationarityReport) -> Any:
+    rows = []
+    for t in report.tests:
+        crit = t.critical_values.get("5%")
+        level = f"d = {t.differences}" + (
+            f", D = {t.seasonal_differences}" if t.seasonal_differences else ""
+        )
+        chosen = t.differences == report.d and t.seasonal_differences == report.seasonal_d
+        rows.append(
+            {
+                "test": html.Strong(t.test),
+                "regression": t.regression,
+                "level": level,
+                "statistic": fmt_number(t.statistic, 4),
+                "pvalue": pvalue_text(t),
+                "critical": fmt_number(crit, 4) if crit is not None else "",
+                "lags": str(t.lags),
+                "null": t.null,
+                "result": "rejects the null" if t.rejected else "keeps the null",
+                "_class": "hc-row--chosen" if chosen else None,
+            }
+        )
+    if not rows:
+        return alert("No tests could be run on this series.", "warning")
+    return html.Div(
+        html_table(
+            rows,
+            [
+                ("test", "Test"),
+                ("regression", "Terms"),
+                ("level", "Differences"),
+                ("statistic", "Statistic"),
+                ("critical", "5% critical value"),
+                ("pvalue", "p-value"),
+                ("lags", "Lags"),
+                ("null", "Null hypothesis"),
+                ("result", "At 5%"),
+            ],
+            id="intake-tests",
+            numeric=("statistic", "critical", "pvalue", "lags"),
+            caption="Shaded rows: the differencing level chosen.",
+        ),
+        className="hc-table-wrap hc-table-wrap--full",
+    )
+
+
+def stationarity_stats(report: fc.StationarityReport) -> html.Div:
+    cards = [
+        stat_card("Differences (d)", str(report.d), "chosen by KPSS at 5%", tone="good"),
+    ]
+    if report.frequency != "annual":
+        strength = (
+            ""
+            if report.seasonal_strength is None
+            else f"seasonal strength {report.seasonal_strength:.2f}"
+        )
+        cards.append(stat_card("Seasonal differences (D)", str(report.seasonal_d), strength))
+    cards.append(
+        stat_card(
+            "ADF and KPSS",
+            "disagree" if report.tests_disagree else "agree",
+            "read the verdict" if report.tests_disagree else "on the number of differences",
+            tone="warning" if report.tests_disagree else "good",
+        )
+    )
+    return stat_row(cards)
