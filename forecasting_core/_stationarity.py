@@ -83,7 +83,7 @@ def _failed(test: str, regression: str, d: int, sd: int) -> StationarityTest:
 
 def _kpss(x: np.ndarray, regression: str, d: int, sd: int) -> StationarityTest:
     """KPSS test (Kwiatkowski et al. 1992), bandwidth by Hobijn et al. (1998)."""
-    if x.size < 4 or np.ptp(x) <= 1e-12 * max(1.0, float(np.max(np.abs(x)))):
+    if x.size < 4 or _flat(x):
         return _failed("KPSS", regression, d, sd)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
@@ -99,7 +99,7 @@ def _kpss(x: np.ndarray, regression: str, d: int, sd: int) -> StationarityTest:
 
 def _adf(x: np.ndarray, regression: str, d: int, sd: int) -> StationarityTest:
     """Augmented Dickey-Fuller test, lag length by AIC, MacKinnon p-values and critical values."""
-    if x.size < 8 or np.ptp(x) <= 1e-12 * max(1.0, float(np.max(np.abs(x)))):
+    if x.size < 8 or _flat(x):
         return _failed("ADF", regression, d, sd)
     try:
         with warnings.catch_warnings():
@@ -132,13 +132,21 @@ def _kpss_order(x: np.ndarray, alpha: float = 0.05) -> tuple[int, list[Stationar
     return MAX_D, tests
 
 
-def _adf_order(tests: list[StationarityTest], alpha: float) -> int | None:
-    """First d at which ADF (constant only) rejects a unit root; None when it never does."""
+def _flat(x: np.ndarray) -> bool:
+    """True when the values do not vary (no test statistic can be computed)."""
+    return x.size == 0 or bool(np.ptp(x) <= 1e-12 * max(1.0, float(np.max(np.abs(x)))))
+
+
+def _adf_order(
+    tests: list[StationarityTest], alpha: float, flat: frozenset[int] = frozenset()
+) -> int | None:
+    """First d at which ADF (constant only) rejects a unit root, or at which the series is
+    constant (``flat``: trivially stationary); None when neither happens."""
     for t in sorted(
         (t for t in tests if t.test == "ADF" and t.regression == "level"),
         key=lambda t: t.differences,
     ):
-        if t.pvalue < alpha:
+        if t.differences in flat or t.pvalue < alpha:
             return t.differences
     return None
 
@@ -167,7 +175,7 @@ def seasonal_strength(x: pd.Series | np.ndarray, period: int) -> float:
 
 def _correlogram(x: np.ndarray, d: int, sd: int, freq: str) -> Correlogram:
     n = x.size
-    nlags = max(1, min(MAX_LAG[freq], n // 3))
+    nlags = max(1, min(MAX_LAG[freq], n // 2 - 1))
     if np.ptp(x) <= 0:
         zeros = (0.0,) * nlags
         return Correlogram(d, sd, tuple(range(1, nlags + 1)), zeros, zeros, 1.96 / np.sqrt(n))
@@ -247,6 +255,11 @@ def assess_stationarity(
             f"stationarity tests need at least {need} observed values for {'an' if freq == 'annual' else 'a'} {freq} series. "
             f"Got {len(observed)} instead."
         )
+    if _flat(observed.to_numpy(dtype=float)):
+        raise InputError(
+            f"stationarity tests need values that vary. Got {float(observed.iloc[0])!r} in every "
+            f"observed period instead."
+        )
     y = y.loc[observed.index[0] : observed.index[-1]]
     spec = _resolve_transform(y, transform)
     z = transform_series(y, spec)
@@ -264,12 +277,15 @@ def assess_stationarity(
     differenced: dict[int, pd.Series] = {}
     tests: list[StationarityTest] = []
     correlograms: list[Correlogram] = []
+    flat: set[int] = set()
     current, current_filled = base, base_filled
     for k in range(MAX_D + 1):
         if k:
             current, current_filled = current.diff().iloc[1:], current_filled.diff().iloc[1:]
         differenced[k] = current.rename(y.name)
         x = current_filled.to_numpy(dtype=float)
+        if _flat(x):
+            flat.add(k)
         for test in ("ADF", "KPSS"):
             for reg in ("level", "trend"):
                 tests.append((_adf if test == "ADF" else _kpss)(x, reg, k, sd))
@@ -277,10 +293,12 @@ def assess_stationarity(
 
     d, sequence = _kpss_order(base_filled.to_numpy(dtype=float), alpha)
     capped = d == MAX_D and sequence[-1].pvalue < alpha
-    adf_d = _adf_order(tests, alpha)
+    adf_d = _adf_order(tests, alpha, frozenset(flat))
     # ADF never rejecting (adf_d None) agrees with a capped KPSS sequence: both want more than 2.
     disagree = not (adf_d == d or (adf_d is None and capped))
-    verdict = _verdict(name, freq, m, spec, d, adf_d, sd, strength, tests, gaps, alpha)
+    verdict = _verdict(
+        name, freq, m, spec, d, adf_d, sd, strength, tests, gaps, alpha, min(flat, default=None)
+    )
     return StationarityReport(
         series_name=name,
         frequency=freq,
@@ -339,6 +357,7 @@ def _verdict(
     tests: list[StationarityTest],
     gaps: list[str],
     alpha: float,
+    first_flat: int | None = None,
 ) -> str:
     pct = f"{100 * alpha:g}%"
     after = _AFTER_SEASONAL if sd else _AFTER
@@ -376,7 +395,13 @@ def _verdict(
     )
 
     adf = [_find(tests, "ADF", "level", k) for k in range(MAX_D + 1)]
-    if adf_d == d:
+    if first_flat is not None and first_flat <= d:
+        parts.append(
+            f"After {first_flat} difference{'s' if first_flat != 1 else ''} the series is constant "
+            f"(e.g. a straight line differenced once), so neither test can run there: a constant "
+            f"needs no further difference."
+        )
+    elif adf_d == d:
         parts.append(f"ADF agrees: it rejects a unit root first on {after[d]} ({_p(adf[d])}).")
     elif adf_d is not None and adf_d < d:
         parts.append(

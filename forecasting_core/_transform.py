@@ -350,13 +350,11 @@ def back_transform(z: ArrayLike | float, spec: TransformSpec) -> ArrayLike | flo
         if lam == 0.0:
             out = np.exp(v)
         else:
-            base = lam * v + 1.0
-            with np.errstate(divide="ignore", invalid="ignore"):
-                out = np.where(
-                    base > 0,
-                    np.power(np.where(base > 0, base, 1.0), 1.0 / lam),
-                    0.0 if lam > 0 else np.inf,
-                )
+            lv = lam * v
+            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+                # exp(log1p(lam z) / lam) = (lam z + 1)**(1/lam), accurate for lambda near 0
+                inside = np.exp(np.log1p(np.where(lv > -1.0, lv, 0.0)) / lam)
+                out = np.where(lv > -1.0, inside, 0.0 if lam > 0 else np.inf)
             out = np.where(np.isnan(v), np.nan, out)
     else:
         raise InputError(
@@ -399,10 +397,11 @@ def mean_back_transform(
         out = np.exp(m + s2 / 2.0)
     elif spec.name == "boxcox":
         lam = float(spec.lam)  # type: ignore[arg-type]
-        base = lam * m + 1.0
-        with np.errstate(divide="ignore", invalid="ignore"):
-            safe = np.where(base > 0, base, np.nan)
-            out = np.power(safe, 1.0 / lam) * (1.0 + s2 * (1.0 - lam) / (2.0 * safe**2))
+        lm = lam * m
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            safe = np.where(lm > -1.0, lm, np.nan)
+            median = np.exp(np.log1p(safe) / lam)
+            out = median * (1.0 + s2 * (1.0 - lam) / (2.0 * (safe + 1.0) ** 2))
     else:
         raise InputError(
             f"transform must be one of 'none', 'log', 'boxcox'. Got {spec.name!r} instead."

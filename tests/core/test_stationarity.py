@@ -214,6 +214,18 @@ def test_report_views_are_plain_data(random_walk_report):
     assert "Chosen: d = 1" in random_walk_report.summary()
 
 
+def test_straight_line_needs_one_difference_and_the_verdict_says_why():
+    # A linear trend differenced once is a constant (algebra): no test can run on it.
+    report = assess_stationarity(annual(5.0 + 2.0 * np.arange(30)))
+    assert report.d == 1 and not report.tests_disagree
+    assert "After 1 difference the series is constant" in report.verdict
+
+
+def duplicated_years() -> pd.Series:
+    index = pd.PeriodIndex(["1990", "1991", "1991"] + [str(y) for y in range(1992, 2010)], freq="Y")
+    return pd.Series(np.arange(21.0), index=index)
+
+
 @pytest.mark.parametrize(
     ("make", "kwargs", "message"),
     [
@@ -247,6 +259,12 @@ def test_report_views_are_plain_data(random_walk_report):
             {"transform": "log"},
             r"log transform needs values above 0\. Got 0\.0 in 2010 instead\.",
         ),
+        (
+            lambda: annual(np.full(20, 4.0)),
+            {},
+            r"stationarity tests need values that vary\. Got 4\.0 in every observed period instead\.",
+        ),
+        (duplicated_years, {}, r"y must have one value per period\. Got 1991 twice instead\."),
     ],
 )
 def test_unusable_input_gets_a_plain_message(make, kwargs, message):

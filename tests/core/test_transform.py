@@ -89,6 +89,23 @@ def test_back_transform_undoes_transform(spec):
     np.testing.assert_allclose(back_transform(z, spec), x, rtol=1e-12)  # NaN passes through
 
 
+def test_boxcox_with_lambda_near_zero_is_the_log_to_rounding():
+    # Box-Cox tends to the log as lambda -> 0 (Box & Cox 1964); the inverse stays accurate.
+    x = np.array([0.2, 1.0, 35.0, 8000.0])
+    spec = TransformSpec("boxcox", 1e-9)
+    np.testing.assert_allclose(transform_series(x, spec), np.log(x), rtol=1e-7, atol=1e-7)
+    np.testing.assert_allclose(back_transform(transform_series(x, spec), spec), x, rtol=1e-12)
+
+
+@pytest.mark.parametrize(
+    ("lam", "z", "expected"), [(0.5, -3.0, 0.0), (0.5, -2.0, 0.0), (-0.5, 2.0, np.inf)]
+)
+def test_boxcox_back_transform_beyond_the_pole_is_zero_or_infinite(lam, z, expected):
+    # (lam z + 1)^(1/lam) has no value for lam z + 1 <= 0: the band limit is 0 (lam > 0) or
+    # unbounded (lam < 0).
+    assert back_transform(z, TransformSpec("boxcox", lam)) == expected
+
+
 @pytest.mark.parametrize("lam", [-0.5, 0.3, 1.0, 2.0])
 def test_boxcox_matches_scipy_definition(lam):
     x = np.random.default_rng(5).gamma(3.0, 100.0, 30)
