@@ -404,13 +404,15 @@ def _verdict(
     elif adf_d == d:
         parts.append(f"ADF agrees: it rejects a unit root first on {after[d]} ({_p(adf[d])}).")
     elif adf_d is not None and adf_d < d:
+        what = "level" if adf_d == 0 else "growth rate (the level of the differenced series)"
         parts.append(
             f"ADF and KPSS disagree: ADF already rejects a unit root on {after[adf_d]} "
             f"({_p(adf[adf_d])}), while KPSS asks for d = {d}. Both tests rejecting their null at once "
             f"is typical of a series that is stable around a level that shifted at some point (a regime "
-            f"change): KPSS reads the step as wandering, ADF sees quick return to the current level. "
-            f"Look at the plot for a step change. With d = {d} a model follows the new level but its bands "
-            f"widen with the horizon; a model with d = {adf_d} fitted after the change may suit better."
+            f"change; here the {what}): KPSS reads the step as wandering, ADF sees quick return to the "
+            f"current level. Look at the plot for a step change. With d = {d} a model follows the new "
+            f"level but its bands widen with the horizon; a model with d = {adf_d} fitted after the "
+            f"change may suit better."
         )
     elif adf_d is None and capped:
         parts.append(
