@@ -63,20 +63,24 @@ def provenance(
     *,
     data_sha256: str | None = None,
     source: str | None = None,
+    resolved: Mapping[str, Any] | None = None,
 ) -> dict[str, Any]:
     """What produced a result: data hashes, settings and package versions.
 
-    No clock time is recorded, so that the same data and settings give the same object.
+    ``settings`` are the ones asked for; ``resolved`` (optional) every setting the model
+    comparison actually used (differences, search, transform). No clock time is recorded,
+    so that the same data and settings give the same object.
     """
-    return _clean(
-        {
-            "source": source,
-            "data_sha256": data_sha256,
-            "series_sha256": series_sha256(y),
-            "settings": dict(settings),
-            "versions": package_versions(),
-        }
-    )
+    out = {
+        "source": source,
+        "data_sha256": data_sha256,
+        "series_sha256": series_sha256(y),
+        "settings": dict(settings),
+        "versions": package_versions(),
+    }
+    if resolved is not None:
+        out["resolved_settings"] = dict(resolved)
+    return _clean(out)
 
 
 def hindcast_summary(comparison: Comparison) -> dict[str, Any] | None:
@@ -152,6 +156,7 @@ def forecast_record(
             settings,
             data_sha256=data_sha256,
             source=source,
+            resolved=comparison.settings,
         ),
     }
     return _clean(record)
@@ -272,10 +277,18 @@ def _task(name: str, y: pd.Series, horizon: int, options: dict[str, Any]) -> dic
         )  # fmt: skip
 
 
-def _unusable_message(table: Table, name: str) -> str:
+def unusable_message(table: Table, name: str) -> str:
+    """Plain message for a series the file check marked unusable, naming rows and years."""
     info = table.info[name]
-    errors = [p.summary() for p in info.problems if p.severity == "error"]
-    detail = "; ".join(errors) if errors else "no usable values"
+    parts = []
+    for p in info.problems:
+        if p.severity != "error":
+            continue
+        where = ", ".join(
+            x for x in (f"row {p.row}" if p.row is not None else "", p.time or "") if x
+        )
+        parts.append(f"{where}: {p.message}" if where else p.message)
+    detail = "; ".join(parts) if parts else "it has no usable values."
     return f"series {name!r} cannot be used: {detail}"
 
 
@@ -359,7 +372,7 @@ def run_batch(
             todo.append(name)
         else:
             settings = _settings_of(horizon, options)
-            finish(name, error_record(name, _unusable_message(table, name), settings,
+            finish(name, error_record(name, unusable_message(table, name), settings,
                                       source=table.source, data_sha256=table.sha256))
     if workers == 1 or len(todo) <= 1:
         for name in todo:

@@ -98,10 +98,9 @@ def _pick_series(table, name: Any):
     if name in table.series:
         return table.series[name]
     if name in table.info:
-        errors = [p.summary() for p in table.info[name].problems if p.severity == "error"]
-        raise InputError(
-            f"series {name!r} cannot be used: " + ("; ".join(errors) or "it has no usable values.")
-        )
+        from forecasting_core._batch import unusable_message
+
+        raise InputError(unusable_message(table, name))
     names = ", ".join(table.info) or "(none)"
     raise InputError(f"--series must be one of {names}. Got {name!r} instead.")
 

@@ -1,0 +1,116 @@
+"""Batch runs: every usable series of a file, in worker processes, with provenance.
+
+The data here are seeded random walks made for plumbing only (invented; no external source).
+A forced ARIMA(0,1,1), two hindcast origins and horizon 2 keep the runs short.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+import forecasting_core._search as search_mod
+from forecasting_core._batch import RECORD_KEYS, run_batch
+from forecasting_core._results import CAUTIONS, InputError
+
+SMALL = {"order": (0, 1, 1), "constant": False, "hindcast_origins": 2}
+
+
+@pytest.fixture(scope="module")
+def small_file(tmp_path_factory) -> Path:
+    rng = np.random.default_rng(20261201)
+    years = np.arange(1996, 2026)
+    cod = 500 * np.exp(np.cumsum(rng.normal(0, 0.1, years.size)))
+    ling = 80 + np.cumsum(rng.normal(0, 3, years.size))
+    lines = ["year,cod_t,ling_t,skate_t"]
+    for i, year in enumerate(years):
+        skate = f"{40 + i:.1f}" if i >= years.size - 5 else ""  # only 5 values: too short
+        lines.append(f"{year},{cod[i]:.1f},{ling[i]:.1f},{skate}")
+    path = tmp_path_factory.mktemp("batch") / "small_landings.csv"
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return path
+
+
+@pytest.fixture(scope="module")
+def inline_run(small_file):
+    calls = []
+    records = run_batch(
+        small_file, 2, transform="none", workers=1,
+        progress=lambda d, t, n: calls.append((d, t, n)), **SMALL,
+    )  # fmt: skip
+    return records, calls
+
+
+def test_one_record_per_series_in_file_order_with_the_contract_keys(inline_run):
+    records, _ = inline_run
+    assert [r["series"] for r in records] == ["cod_t", "ling_t", "skate_t"]
+    for r in records[:2]:
+        assert tuple(r) == RECORD_KEYS
+        assert [f["step"] for f in r["forecast"]] == [1, 2]
+        assert r["cautions"] == list(CAUTIONS)
+
+
+def test_a_series_that_cannot_be_used_gets_an_error_and_the_others_run(inline_run):
+    records, _ = inline_run
+    skate = records[2]
+    assert set(skate) == {"series", "error", "error_kind", "cautions", "provenance"}
+    assert skate["error_kind"] == "data"
+    # The file check's own reason, with its 1-based file row and year.
+    assert skate["error"].startswith("series 'skate_t' cannot be used: row 27, 2021: ")
+
+
+def test_progress_reports_every_series(inline_run):
+    _, calls = inline_run
+    assert [c[:2] for c in calls] == [(1, 3), (2, 3), (3, 3)]
+    assert sorted(c[2] for c in calls) == ["cod_t", "ling_t", "skate_t"]
+
+
+def test_provenance_records_data_hash_settings_and_versions(inline_run, small_file):
+    import hashlib
+
+    import statsmodels
+
+    record = inline_run[0][0]
+    prov = record["provenance"]
+    assert prov["data_sha256"] == hashlib.sha256(small_file.read_bytes()).hexdigest()
+    assert prov["source"] == "small_landings.csv"
+    assert prov["settings"]["horizon"] == 2
+    assert prov["settings"]["order"] == [0, 1, 1]
+    assert prov["versions"]["statsmodels"] == statsmodels.__version__
+    assert len(prov["series_sha256"]) == 64
+
+
+def test_two_workers_give_identical_json_to_one(inline_run, small_file):
+    records, _ = inline_run
+    parallel = run_batch(small_file, 2, transform="none", workers=2, **SMALL)
+    assert json.dumps(parallel, sort_keys=True) == json.dumps(records, sort_keys=True)
+
+
+def test_an_unexpected_failure_stays_with_its_series(small_file, monkeypatch):
+    real = search_mod.compare_models
+
+    def flaky(y, *args, **kwargs):
+        if y.name == "cod_t":
+            raise RuntimeError("solver exploded")
+        return real(y, *args, **kwargs)
+
+    monkeypatch.setattr(search_mod, "compare_models", flaky)
+    records = run_batch(small_file, 1, transform="none", workers=1, **SMALL)
+    assert records[0]["error_kind"] == "internal"
+    assert "RuntimeError: solver exploded" in records[0]["error"]
+    assert "forecast" in records[1]
+
+
+@pytest.mark.parametrize(
+    ("kwargs", "match"),
+    [
+        ({"horizon": 0}, "horizon must be an integer from 1 to 30. Got 0 instead."),
+        ({"workers": 0}, "workers must be a positive integer. Got 0 instead."),
+    ],
+)
+def test_bad_batch_settings_say_what_is_allowed(small_file, kwargs, match):
+    with pytest.raises(InputError, match=match):
+        run_batch(small_file, **{"horizon": 2, **kwargs})
