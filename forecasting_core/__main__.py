@@ -104,7 +104,7 @@ def check_text(table: Table) -> str:
     lines = [table.summary()]
     reports = _stationarity(table)
     for name in table.series:
-        report, note = reports[name]
+        report, note = reports.get(name, (None, "not run"))
         lines.append("")
         if report is None:
             lines.append(f"Stationarity of {name}: not assessed ({note}).")
