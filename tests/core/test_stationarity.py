@@ -6,10 +6,12 @@ import numpy as np
 import pandas as pd
 import pytest
 import statsmodels.api as sm
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 from scipy.signal import lfilter
 
 from forecasting_core import InputError, TransformSpec, assess_stationarity
-from forecasting_core._stationarity import _kpss_order, seasonal_strength
+from forecasting_core._stationarity import _adf, _kpss_order, seasonal_strength
 
 
 def annual(values, start: int = 1900, name: str = "stock_t") -> pd.Series:
@@ -56,9 +58,9 @@ def test_kpss_critical_values_match_the_published_table(random_walk_report, regr
 def test_adf_critical_values_with_constant_approach_the_asymptotic_ones():
     # MacKinnon (2010), constant, no trend, asymptotic: -3.43 / -2.86 / -2.57 at 1/5/10%
     # (from memory, tolerance 0.01). A long series makes the finite-sample correction small.
+    # _adf builds every ADF entry of a report; called once here to keep the test fast.
     rng = np.random.default_rng(2010)
-    report = assess_stationarity(annual(np.cumsum(rng.normal(size=1000)), start=1000))
-    crit = find(report, "ADF", "level", 0).critical_values
+    crit = _adf(np.cumsum(rng.normal(size=1000)), "level", 0, 0).critical_values
     assert crit["1%"] == pytest.approx(-3.43, abs=0.01)
     assert crit["5%"] == pytest.approx(-2.86, abs=0.01)
     assert crit["10%"] == pytest.approx(-2.57, abs=0.01)
@@ -270,3 +272,33 @@ def duplicated_years() -> pd.Series:
 def test_unusable_input_gets_a_plain_message(make, kwargs, message):
     with pytest.raises(InputError, match=message):
         assess_stationarity(make(), **kwargs)
+
+
+def test_quarterly_cycle_gets_one_seasonal_difference_at_lag_four():
+    # Seasonal strength with period 4 (Wang, Smith & Hyndman 2006); D = 1 above 0.64 (common practice).
+    rng = np.random.default_rng(44)
+    quarters = np.arange(80)
+    x = 50 + 8 * np.cos(2 * np.pi * quarters / 4) + ar1(80, 0.3, rng)
+    y = pd.Series(x, index=pd.period_range("2000Q1", periods=80, freq="Q"), name="crab_t")
+    report = assess_stationarity(y)
+    assert report.frequency == "quarterly" and report.seasonal_d == 1
+    assert "lag 4" in report.verdict
+    np.testing.assert_allclose(report.differenced[0].to_numpy(), x[4:] - x[:-4])
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(
+    values=st.lists(
+        st.one_of(st.floats(-1e6, 1e6, allow_nan=False), st.just(float("nan"))),
+        min_size=0,
+        max_size=60,
+    ),
+    transform=st.sampled_from(["none", "log", "auto"]),
+)
+def test_any_annual_series_gives_a_report_or_a_plain_input_error(values, transform):
+    # Property: bad or odd input never escapes as anything but the project's InputError.
+    try:
+        report = assess_stationarity(annual(values), transform=transform)
+    except InputError:
+        return
+    assert 0 <= report.d <= 2 and report.verdict
