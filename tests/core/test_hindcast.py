@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -183,3 +184,59 @@ def test_rejected_candidates_passed_in_are_not_scored():
     rejected = replace(_fake_candidate(Y8), status="rejected", reason="did not converge")
     h = run_hindcast(Y8, [rejected, fit_benchmark(Y8, "naive")], horizon=1, origins=2)
     assert [s.model for s in h.scores] == ["last value"]
+
+
+# --- real fits on the invented sample data (sample_data/README.md gives the true processes) ---
+
+
+@pytest.fixture(scope="module")
+def samples():
+    from forecasting_core import read_table
+
+    root = Path(__file__).resolve().parents[2] / "sample_data"
+    return {
+        "landings": read_table(root / "vellmouth_landings.csv"),
+        "squid": read_table(root / "vellmouth_squid_monthly.csv"),
+    }
+
+
+@pytest.mark.parametrize(
+    ("file", "name", "order", "seasonal", "constant", "horizon", "origins"),
+    [
+        # log ARIMA(1,1,0) with drift and log ARIMA(0,1,1): wandering levels, so the long-run
+        # mean is a poor forecast and the true process must rank above it.
+        ("landings", "hake_t", (1, 1, 0), None, True, 5, None),
+        ("landings", "whiting_t", (0, 1, 1), None, False, 5, None),
+        # log seasonal ARIMA(1,0,0)(0,1,1)[12]: the mean ignores the seasonal swing.
+        # (Few origins: plumbing-sized; the seasonal gap is large.)
+        ("squid", "squid", (1, 0, 0), (0, 1, 1, 12), False, 3, 3),
+    ],
+)
+def test_true_process_ranks_above_the_long_run_mean_on_sample_data(
+    samples, file, name, order, seasonal, constant, horizon, origins
+):
+    y = samples[file].series[name]
+    true = search_mod.fit_order(y, order, seasonal, constant, TransformSpec("log"))
+    assert true.ok, true.reason
+    mean = fit_benchmark(y, "mean", TransformSpec("log"))
+    h = run_hindcast(y, [true, mean], horizon=horizon, origins=origins)
+    assert h.skipped == ()
+    assert h.score(true.label).mase < h.score("long-run mean").mase
+    assert h.score(true.label).interval_score95 < h.score("long-run mean").interval_score95
+    assert h.verdict.startswith(true.label)
+
+
+def test_arima_hindcast_uses_only_data_up_to_each_origin(samples):
+    # Leakage check with real refits: double the final value; no origin's forecast may move.
+    y = samples["landings"].series["whiting_t"]
+    spec = TransformSpec("log")
+    model = search_mod.fit_order(y, (0, 1, 1), None, False, spec)
+    changed = y.copy()
+    changed.iloc[-1] *= 2
+    a = run_hindcast(y, [model], horizon=2, origins=3).errors
+    b = run_hindcast(changed, [model], horizon=2, origins=3).errors
+    cols = ["model", "origin", "step", "mean", "median", "lo80", "hi80", "lo95", "hi95"]
+    pd.testing.assert_frame_equal(a[cols], b[cols])
+    # 2025 is the actual of origins 2023 (step 2) and 2024 (step 1), for the model and for
+    # the last value the hindcast adds: 4 rows differ, and only in "actual".
+    assert (a["actual"] != b["actual"]).sum() == 4
