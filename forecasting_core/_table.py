@@ -394,7 +394,12 @@ class _Reader:
             lost[row] = "its time has a different frequency from the other rows"
         if not freq:
             return self.table("wide", {}, {})
-        rows_ok = [(row, ordinals[row], cells) for row, _, _, cells in parsed if row in ordinals]
+        decimal = self.decimal
+        rows_ok = [
+            (row, ordinals[row], cells, {j: parse_number(cells[j], decimal) for j in value_cols})
+            for row, _, _, cells in parsed
+            if row in ordinals
+        ]
         long = self._long_roles(names, value_cols, tcol, rows_ok)
         if long is not None:
             return self._build_long(names, long, freq, rows_ok, data, lost, tname)
@@ -502,41 +507,46 @@ class _Reader:
         return out
 
     # -- layouts -------------------------------------------------------------------------
-    def _classify(self, cells: list) -> str:
-        kinds = Counter(parse_number(c, self.decimal)[0] for c in cells if not is_empty(c))
-        n = sum(kinds.values())
-        if n == 0:
+    @staticmethod
+    def _classify(parsed: list[tuple[str, float]]) -> str:
+        """``num``, ``text`` or ``empty`` for a column from its parsed cells."""
+        kinds = Counter(kind for kind, _ in parsed)
+        if kinds["num"] + kinds["text"] == 0:
             return "empty"
         return "num" if kinds["num"] >= 0.5 * (kinds["num"] + kinds["text"]) else "text"
 
     def _long_roles(self, names, value_cols, tcol, rows_ok):
-        roles = {j: self._classify([cells[j] for _, _, cells in rows_ok]) for j in value_cols}
+        roles = {j: self._classify([p[j] for _, _, _, p in rows_ok]) for j in value_cols}
         texts = [j for j in value_cols if roles[j] == "text"]
         nums = [j for j in value_cols if roles[j] == "num"]
         if not texts or not nums:
             return None
         unit_cols = [j for j in texts if _tokens(names[j]) & _UNIT_WORDS]
         if not unit_cols:
-            unit_cols = [j for j in texts if all(cell_text(cells[j]).lower() in KNOWN_UNITS for _, _, cells in rows_ok if not is_empty(cells[j]))]
+            unit_cols = [j for j in texts if all(cell_text(cells[j]).lower() in KNOWN_UNITS for _, _, cells, _ in rows_ok if not is_empty(cells[j]))]
         keys = [j for j in texts if j not in unit_cols]
-        named = [j for j in keys if _tokens(names[j]) & _NAME_WORDS]
-        times_repeat = len({o for _, o, _ in rows_ok}) < len(rows_ok)
-        repeated = [j for j in keys if len({cell_text(c[j]) for _, _, c in rows_ok}) < len(rows_ok)]
-        if not named and not (times_repeat and repeated):
-            return None
-        keys = named or repeated
-        return keys, unit_cols[:1], nums
+        # Long when the times repeat (several series share them) and a text column repeats its
+        # names; or a name-like header (``series``, ``stock``) over repeated times or one name.
+        n = len(rows_ok)
+        times_repeat = len({o for _, o, _, _ in rows_ok}) <= 0.75 * n
+        distinct = {j: len({cell_text(c[j]) for _, _, c, _ in rows_ok if not is_empty(c[j])}) for j in keys}
+        repeated = [j for j in keys if distinct[j] <= n / 2]
+        named = [j for j in keys if _tokens(names[j]) & _NAME_WORDS and (times_repeat or distinct[j] == 1)]
+        if named:
+            return named, unit_cols[:1], nums
+        if times_repeat and repeated:
+            return repeated, unit_cols[:1], nums
+        return None
 
     def _build_wide(self, names, value_cols, freq, rows_ok, data, lost, units_row) -> Table:
-        rows_ok = self._exact_duplicates(rows_ok, key=lambda it: (it[1], tuple(cell_text(it[2][j]) for j in value_cols)))
-        self._order_warning(freq, [(r, o) for r, o, _ in rows_ok], None)
+        rows_ok = self._exact_duplicates(rows_ok, key=lambda it: (it[1], tuple(it[2][j] for j in value_cols)))
+        self._order_warning(freq, [(r, o) for r, o, _, _ in rows_ok], None)
         infos: dict[str, SeriesInfo] = {}
         series: dict[str, pd.Series] = {}
         cells_by_row = dict(data)
         for j in value_cols:
-            col = [cells[j] for _, _, cells in rows_ok]
-            if self._classify(col) == "text":
-                example = next((r, cell_text(c[j])) for r, _, c in rows_ok if parse_number(c[j], self.decimal)[0] == "text")
+            if self._classify([p[j] for _, _, _, p in rows_ok]) == "text":
+                example = next((r, cell_text(c[j])) for r, _, c, p in rows_ok if p[j][0] == "text")
                 self.note(
                     "warning",
                     f"column {names[j]!r} holds text, not numbers (e.g. {_short(example[1])!r} in row {example[0]}); it was not read as a series. "
@@ -546,8 +556,8 @@ class _Reader:
                 )
                 continue
             obs = []
-            for row, ordinal, cells in rows_ok:
-                kind, value = parse_number(cells[j], self.decimal)
+            for row, ordinal, cells, p in rows_ok:
+                kind, value = p[j]
                 obs.append(Obs(row, ordinal, kind, value, cell_text(cells[j])))
             lost_rows = [r for r in lost if not is_empty(cells_by_row[r][j])]
             pre = self._lost_problems({names[j]: lost_rows}, lost).get(names[j], [])
@@ -563,9 +573,9 @@ class _Reader:
     def _build_long(self, names, roles, freq, rows_ok, data, lost, tname) -> Table:
         keys, unit_cols, nums = roles
         ucol = unit_cols[0] if unit_cols else None
-        rows_ok = self._exact_duplicates(rows_ok, key=lambda it: (it[1], tuple(cell_text(it[2][j]) for j in keys + unit_cols + nums)))
+        rows_ok = self._exact_duplicates(rows_ok, key=lambda it: (it[1], tuple(it[2][j] for j in keys + unit_cols + nums)))
         obs_by: dict[str, list[Obs]] = {}
-        for row, ordinal, cells in rows_ok:
+        for row, ordinal, cells, p in rows_ok:
             key = " ".join(cell_text(cells[j]) for j in keys if not is_empty(cells[j])).strip()
             if not key:
                 if any(not is_empty(cells[j]) for j in nums):
@@ -573,7 +583,7 @@ class _Reader:
                 continue
             for j in nums:
                 name = key if len(nums) == 1 else f"{key} {names[j]}"
-                kind, value = parse_number(cells[j], self.decimal)
+                kind, value = p[j]
                 unit = cell_text(cells[ucol]) if ucol is not None and not is_empty(cells[ucol]) else None
                 obs_by.setdefault(name, []).append(Obs(row, ordinal, kind, value, cell_text(cells[j]), unit))
         cells_by_row = dict(data)

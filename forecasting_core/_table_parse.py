@@ -220,10 +220,12 @@ def cell_text(cell: Cell) -> str:
 
 
 def is_empty(cell: Cell) -> bool:
-    return cell is None or (isinstance(cell, str) and cell.strip() == "")
+    """True for a blank cell (grid cells are already stripped)."""
+    return cell is None or cell == ""
 
 
 _GROUP_SPACE = re.compile(r"(?<=\d)[\s\u00a0\u202f\u2009'](?=\d{3}(?!\d))")
+_SIMPLE = re.compile(r"-?\d{1,15}(?:\.\d{0,15})?")
 _PLAIN = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
 _THOUSANDS = {".": re.compile(r"[+-]?\d{1,3}(?:,\d{3})+(?:\.\d*)?"), ",": re.compile(r"[+-]?\d{1,3}(?:\.\d{3})+(?:,\d*)?")}
 
@@ -235,11 +237,14 @@ def parse_number(cell: Cell, decimal: str) -> tuple[str, float]:
     proper groups of three digits (``1,234.5`` or ``1.234,5``); spaces and apostrophes between
     digit groups are dropped as well (``1 234,5``).
     """
-    if cell is None:
+    if type(cell) is str:
+        if decimal == "." and _SIMPLE.fullmatch(cell):  # fast path: most cells are plain numbers
+            return "num", float(cell)
+    elif cell is None:
         return "na", math.nan
-    if isinstance(cell, bool) or isinstance(cell, datetime | date):
+    elif isinstance(cell, bool) or isinstance(cell, datetime | date):
         return "text", math.nan
-    if isinstance(cell, int | float):
+    elif isinstance(cell, int | float):
         value = float(cell)
         if math.isnan(value):
             return "na", math.nan
@@ -272,9 +277,13 @@ def detect_decimal(cells: Iterable[Cell], delimiter: str | None) -> tuple[str, P
     """Choose the decimal mark from unambiguous cells (``12.5`` vs ``12,5``)."""
     point = comma = 0
     ambiguous: list[str] = []
+    seen = 0
     for cell in cells:
         if not isinstance(cell, str) or not cell:
             continue
+        seen += 1
+        if seen > 50_000:
+            break
         s = _GROUP_SPACE.sub("", cell.strip())
         if _POINT_EVIDENCE.fullmatch(s):
             point += 1
@@ -330,6 +339,8 @@ def parse_time(cell: Cell) -> tuple[str, tuple[int, ...]]:
     month), ``"D"`` (year, month, day), ``"range"`` (a year outside 1800-2100), ``"empty"``,
     ``"words"`` (text without digits, e.g. ``Total``) or ``"bad"`` (digits that are no time).
     """
+    if type(cell) is str and len(cell) == 4 and cell.isdigit():  # fast path: a plain year
+        return _year_checked("Y", (int(cell),))
     if is_empty(cell):
         return "empty", ()
     if isinstance(cell, datetime | date):

@@ -159,11 +159,19 @@ def build_series(
     explicit_missing: dict[int, Obs] = {}
     conflicts: list[tuple[int, int]] = []
     for ordinal in sorted(by_time):
-        group = sorted(by_time[ordinal], key=lambda o: o.row)
+        group = by_time[ordinal]
+        if len(group) == 1:
+            o = group[0]
+            if o.kind == "num":
+                values[ordinal] = o.value
+                source_row[ordinal] = o.row
+            else:
+                explicit_missing[ordinal] = o
+            continue
+        group.sort(key=lambda o: o.row)
         nums = [o for o in group if o.kind == "num"]
-        rows = [o.row for o in group]
-        distinct = sorted({o.value for o in nums})
-        where = f"{label(freq, ordinal)} appears in rows {compact(rows)}"
+        distinct = {o.value for o in nums}
+        where = f"{label(freq, ordinal)} appears in rows {compact([o.row for o in group])}"
         if len(distinct) > 1:
             conflicts.append((ordinal, nums[1].row))
             if len(conflicts) <= 5:
