@@ -390,8 +390,7 @@ class _Reader:
             self.note("error", f"{capped - 10} more rows have times that cannot be read ({rows_text(rows[10:])}).", row=rows[10], column=tname)
 
         freq, ordinals = self._frequency(parsed, tname)
-        for row in self.mixed:
-            lost[row] = "its time has a different frequency from the other rows"
+        lost.update(self.mixed)
         if not freq:
             return self.table("wide", {}, {})
         decimal = self.decimal
@@ -406,7 +405,7 @@ class _Reader:
         return self._build_wide(names, value_cols, freq, rows_ok, data, lost, units_row)
 
     def _frequency(self, parsed, tname) -> tuple[str, dict[int, int]]:
-        self.mixed: set[int] = set()
+        self.mixed: dict[int, str] = {}
         if not parsed:
             self.note("error", f"no row has a time that can be read in column {tname!r}; write times as 1998, 1998-07, 1998-Q3 or 1998-07-01.", column=tname)
             return "", {}
@@ -422,7 +421,10 @@ class _Reader:
                 row=row,
                 column=tname,
             )
-        self.mixed = {row for row, _, _ in odd}
+        self.mixed = {
+            row: f"its time {_short(cell_text(cells[self.tcol]))!r} is {names[k]} while most rows have {names[main]}"
+            for row, k, cells in odd
+        }
         good = [(row, parts) for row, k, parts, _ in parsed if k == main]
         if main == "D":
             months = sorted({month_ordinal("D", p) for _, p in good})

@@ -38,62 +38,355 @@ class Case:
 
 
 CASES = [
-    Case("duplicate_year_different_values.csv", ("cod_t",), ("hake_t",),
-         (("error", 8, "1995", "hake_t", r"1995 appears in rows 7, 8 with different values: 1154\.6 \(row 7\) and 1204\.6 \(row 8\)"),
-          ("warning", 8, "1995", "cod_t", r"same value \(401\); it was kept once"))),
-    Case("exact_duplicate_row.csv", ("hake_t", "cod_t"), (), (("warning", 8, None, None, r"row 8 repeats row 7 exactly; it was kept once"),)),
-    Case("text_about.csv", ("hake_t", "cod_t"), (), (("warning", 8, "1996", "hake_t", r"'about 900' is not a number; the cell was read as missing\. If 900 is meant"),)),
-    Case("text_with_unit.csv", ("hake_t", "cod_t"), (), (("warning", 5, "1993", "hake_t", r"'12\.5t' is not a number.*If 12\.5 is meant"),)),
-    Case("blank_and_na.csv", ("hake_t", "cod_t"), (), (("warning", 6, "1994", "hake_t", r"empty or NA cells in rows 6, 11 \(1994, 1999\); kept as missing"),)),
-    Case("missing_years.csv", ("hake_t", "cod_t"), (), (("warning", None, "1990", "hake_t", r"4 years inside 1985-2009 have no row in the file: 1990, 1995-1997; kept as missing"),)),
-    Case("negative_value.csv", ("hake_t", "cod_t"), (), (("warning", 13, "2001", "hake_t", r"1 negative value: 2001 \(row 13: -35\)"),)),
-    Case("zero_values.csv", ("hake_t", "cod_t"), (), (("warning", 4, "1992", "hake_t", r"2 of 20 values are zero: 1992 \(row 4: 0\), 1993 \(row 5: 0\); zeros block the log"),)),
-    Case("constant_series.csv", ("cod_t",), ("hake_t",), (("error", 2, "1990", "hake_t", r"all 20 values are 500; a constant series"),)),
-    Case("too_few_annual.csv", (), ("hake_t", "cod_t"), (("error", 2, "2001", "hake_t", r"has 9 non-missing values \(2001-2009\); an annual series needs at least 15"),)),
-    Case("too_few_monthly.csv", (), ("squid_t",), (("error", 2, "2020-01", "squid_t", r"has 24 non-missing values.*a monthly series needs at least 36"),)),
-    Case("no_time_column.csv", raises=r"must have a time column .* Got columns 'stock', 'hake_t', 'cod_t' instead"),
+    Case(
+        "duplicate_year_different_values.csv",
+        ("cod_t",),
+        ("hake_t",),
+        (
+            (
+                "error",
+                8,
+                "1995",
+                "hake_t",
+                r"1995 appears in rows 7, 8 with different values: 1154\.6 \(row 7\) and 1204\.6 \(row 8\)",
+            ),
+            ("warning", 8, "1995", "cod_t", r"same value \(401\); it was kept once"),
+        ),
+    ),
+    Case(
+        "exact_duplicate_row.csv",
+        ("hake_t", "cod_t"),
+        (),
+        (("warning", 8, None, None, r"row 8 repeats row 7 exactly; it was kept once"),),
+    ),
+    Case(
+        "text_about.csv",
+        ("hake_t", "cod_t"),
+        (),
+        (
+            (
+                "warning",
+                8,
+                "1996",
+                "hake_t",
+                r"'about 900' is not a number; the cell was read as missing\. If 900 is meant",
+            ),
+        ),
+    ),
+    Case(
+        "text_with_unit.csv",
+        ("hake_t", "cod_t"),
+        (),
+        (("warning", 5, "1993", "hake_t", r"'12\.5t' is not a number.*If 12\.5 is meant"),),
+    ),
+    Case(
+        "blank_and_na.csv",
+        ("hake_t", "cod_t"),
+        (),
+        (
+            (
+                "warning",
+                6,
+                "1994",
+                "hake_t",
+                r"empty or NA cells in rows 6, 11 \(1994, 1999\); kept as missing",
+            ),
+        ),
+    ),
+    Case(
+        "missing_years.csv",
+        ("hake_t", "cod_t"),
+        (),
+        (
+            (
+                "warning",
+                None,
+                "1990",
+                "hake_t",
+                r"4 years inside 1985-2009 have no row in the file: 1990, 1995-1997; kept as missing",
+            ),
+        ),
+    ),
+    Case(
+        "negative_value.csv",
+        ("hake_t", "cod_t"),
+        (),
+        (("warning", 13, "2001", "hake_t", r"1 negative value: 2001 \(row 13: -35\)"),),
+    ),
+    Case(
+        "zero_values.csv",
+        ("hake_t", "cod_t"),
+        (),
+        (
+            (
+                "warning",
+                4,
+                "1992",
+                "hake_t",
+                r"2 of 20 values are zero: 1992 \(row 4: 0\), 1993 \(row 5: 0\); zeros block the log",
+            ),
+        ),
+    ),
+    Case(
+        "constant_series.csv",
+        ("cod_t",),
+        ("hake_t",),
+        (("error", 2, "1990", "hake_t", r"all 20 values are 500; a constant series"),),
+    ),
+    Case(
+        "too_few_annual.csv",
+        (),
+        ("hake_t", "cod_t"),
+        (
+            (
+                "error",
+                2,
+                "2001",
+                "hake_t",
+                r"has 9 non-missing values \(2001-2009\); an annual series needs at least 15",
+            ),
+        ),
+    ),
+    Case(
+        "too_few_monthly.csv",
+        (),
+        ("squid_t",),
+        (
+            (
+                "error",
+                2,
+                "2020-01",
+                "squid_t",
+                r"has 24 non-missing values.*a monthly series needs at least 36",
+            ),
+        ),
+    ),
+    Case(
+        "no_time_column.csv",
+        raises=r"must have a time column .* Got columns 'stock', 'hake_t', 'cod_t' instead",
+    ),
     Case("empty.csv", raises=r"the file is empty"),
     Case("blank_lines_only.csv", raises=r"the file is empty \(no cell has a value\)"),
-    Case("header_only.csv", (), (), (("error", 1, None, None, r"has a header \(row 1\) but no data rows"),)),
+    Case(
+        "header_only.csv",
+        (),
+        (),
+        (("error", 1, None, None, r"has a header \(row 1\) but no data rows"),),
+    ),
     Case("binary_noise.csv", raises=r"Got a binary file"),
     Case("pdf_renamed.csv", raises=r"Got a PDF document instead"),
     Case("old_excel.xls", raises=r"old Excel \.xls .* Save it as \.xlsx or CSV"),
-    Case("cp1252_accents.csv", ("merluza_t", "bacalao_t"), (), (("warning", 1, None, None, r"not UTF-8 .* read as Windows-1252"),)),
-    Case("mixed_frequency.csv", (), ("hake_t", "cod_t"),
-         (("error", 15, None, "year", r"row 15: the time '2003-06' is a month but most rows have a year"),
-          ("error", 15, None, "hake_t", r"row 15 has a value for this series that cannot be placed in time"))),
-    Case("bad_time_text.csv", (), ("hake_t", "cod_t"), (("error", 10, None, "year", r"row 10: '199O' is not a year, month, quarter or date"),)),
-    Case("year_out_of_range.csv", (), ("hake_t", "cod_t"), (("error", 17, None, "year", r"row 17: year 20055 is outside 1800-2100"),)),
-    Case("time_cell_empty.csv", (), ("hake_t", "cod_t"), (("error", 12, None, "year", r"row 12: the time cell is empty"),)),
-    Case("empty_series_column.csv", ("hake_t", "cod_t"), ("whiting_t",), (("error", 2, None, "whiting_t", r"has a header but no values"),)),
-    Case("duplicate_column_names.csv", ("hake_t", "hake_t (column 3)"), (),
-         (("warning", 1, None, "hake_t (column 3)", r"column 3 has the same header 'hake_t' as column 2"),)),
-    Case("thousands_quoted.csv", ("hake_t",), (), (("warning", None, None, None, r"'1,000' could mean 1000 or 1\.000; the ',' was read as a thousands separator"),),
-         extra={"value": ("hake_t", "1990", 1000.0)}),
-    Case("trailing_empty.csv", ("hake_t", "cod_t"), (),
-         (("warning", 1, None, None, r"empty columns 4, 5 \(no header, no values\) ignored"),
-          ("warning", 22, None, None, r"empty rows were skipped: 3 at the end"))),
-    Case("units_row.csv", ("hake", "cod"), (), (("warning", 2, None, None, r"row 2 looks like a units row \(hake: 't', cod: 'kg'\)"),),
-         extra={"unit": ("cod", "kg")}),
-    Case("unsorted_rows.csv", ("hake_t", "cod_t"), (), (("warning", 7, "1995", None, r"not in time order: row 7 \(1995\) comes after 2000; they were sorted"),)),
-    Case("newest_first.csv", ("hake_t", "cod_t"), (), (("warning", 2, "2009", None, r"from the newest to the oldest"),)),
-    Case("total_row.csv", ("hake_t", "cod_t"), (), (("warning", 22, None, "year", r"row 22 was skipped: 'Total' is not a time"),)),
-    Case("title_lines.csv", ("hake_t", "cod_t"), (), (("warning", 1, None, None, r"row 1 above the header \(row 3\) was skipped as a title line"),),
-         extra={"value": ("hake_t", "1990", 1000.0)}),
-    Case("unquoted_decimal_comma.csv", (), ("hake_t", "cod_t"),
-         (("error", 9, None, None, r"row 9 has more cells than the header's 3 \(a decimal comma in a comma-separated file\?"),)),
-    Case("long_duplicate_record.csv", ("hake",), ("cod",),
-         (("error", 14, "1995", "cod", r"1995 appears in rows 13, 14 with different values"),), layout="long"),
-    Case("long_unit_change.csv", ("hake",), ("cod",),
-         (("error", 33, "2005", "cod", r"unit changes from 't' \(row 3\) to 'kg' in row 33"),), layout="long"),
-    Case("daily_dates.csv", (), ("squid_t",), (("error", 2, None, "date", r"dates closer than one month \(rows 2-5 fall in 2020-01\)"),)),
-    Case("notes_column.csv", ("hake_t",), (), (("warning", 2, None, "remarks", r"column 'remarks' holds text, not numbers"),)),
-    Case("series_all_text.csv", ("hake_t",), (), (("warning", 2, None, "cod_t", r"holds text, not numbers \(e\.g\. 'n/k' in row 2\)"),)),
+    Case(
+        "cp1252_accents.csv",
+        ("merluza_t", "bacalao_t"),
+        (),
+        (("warning", 1, None, None, r"not UTF-8 .* read as Windows-1252"),),
+    ),
+    Case(
+        "mixed_frequency.csv",
+        (),
+        ("hake_t", "cod_t"),
+        (
+            (
+                "error",
+                15,
+                None,
+                "year",
+                r"row 15: the time '2003-06' is a month but most rows have a year",
+            ),
+            (
+                "error",
+                15,
+                None,
+                "hake_t",
+                r"row 15 has a value for this series that cannot be placed in time",
+            ),
+        ),
+    ),
+    Case(
+        "bad_time_text.csv",
+        (),
+        ("hake_t", "cod_t"),
+        (("error", 10, None, "year", r"row 10: '199O' is not a year, month, quarter or date"),),
+    ),
+    Case(
+        "year_out_of_range.csv",
+        (),
+        ("hake_t", "cod_t"),
+        (("error", 17, None, "year", r"row 17: year 20055 is outside 1800-2100"),),
+    ),
+    Case(
+        "time_cell_empty.csv",
+        (),
+        ("hake_t", "cod_t"),
+        (("error", 12, None, "year", r"row 12: the time cell is empty"),),
+    ),
+    Case(
+        "empty_series_column.csv",
+        ("hake_t", "cod_t"),
+        ("whiting_t",),
+        (("error", 2, None, "whiting_t", r"has a header but no values"),),
+    ),
+    Case(
+        "duplicate_column_names.csv",
+        ("hake_t", "hake_t (column 3)"),
+        (),
+        (
+            (
+                "warning",
+                1,
+                None,
+                "hake_t (column 3)",
+                r"column 3 has the same header 'hake_t' as column 2",
+            ),
+        ),
+    ),
+    Case(
+        "thousands_quoted.csv",
+        ("hake_t",),
+        (),
+        (
+            (
+                "warning",
+                None,
+                None,
+                None,
+                r"'1,000' could mean 1000 or 1\.000; the ',' was read as a thousands separator",
+            ),
+        ),
+        extra={"value": ("hake_t", "1990", 1000.0)},
+    ),
+    Case(
+        "trailing_empty.csv",
+        ("hake_t", "cod_t"),
+        (),
+        (
+            ("warning", 1, None, None, r"empty columns 4, 5 \(no header, no values\) ignored"),
+            ("warning", 22, None, None, r"empty rows were skipped: 3 at the end"),
+        ),
+    ),
+    Case(
+        "units_row.csv",
+        ("hake", "cod"),
+        (),
+        (("warning", 2, None, None, r"row 2 looks like a units row \(hake: 't', cod: 'kg'\)"),),
+        extra={"unit": ("cod", "kg")},
+    ),
+    Case(
+        "unsorted_rows.csv",
+        ("hake_t", "cod_t"),
+        (),
+        (
+            (
+                "warning",
+                7,
+                "1995",
+                None,
+                r"not in time order: row 7 \(1995\) comes after 2000; they were sorted",
+            ),
+        ),
+    ),
+    Case(
+        "newest_first.csv",
+        ("hake_t", "cod_t"),
+        (),
+        (("warning", 2, "2009", None, r"from the newest to the oldest"),),
+    ),
+    Case(
+        "total_row.csv",
+        ("hake_t", "cod_t"),
+        (),
+        (("warning", 22, None, "year", r"row 22 was skipped: 'Total' is not a time"),),
+    ),
+    Case(
+        "title_lines.csv",
+        ("hake_t", "cod_t"),
+        (),
+        (
+            (
+                "warning",
+                1,
+                None,
+                None,
+                r"row 1 above the header \(row 3\) was skipped as a title line",
+            ),
+        ),
+        extra={"value": ("hake_t", "1990", 1000.0)},
+    ),
+    Case(
+        "unquoted_decimal_comma.csv",
+        (),
+        ("hake_t", "cod_t"),
+        (
+            (
+                "error",
+                9,
+                None,
+                None,
+                r"row 9 has more cells than the header's 3 \(a decimal comma in a comma-separated file\?",
+            ),
+        ),
+    ),
+    Case(
+        "long_duplicate_record.csv",
+        ("hake",),
+        ("cod",),
+        (("error", 14, "1995", "cod", r"1995 appears in rows 13, 14 with different values"),),
+        layout="long",
+    ),
+    Case(
+        "long_unit_change.csv",
+        ("hake",),
+        ("cod",),
+        (("error", 33, "2005", "cod", r"unit changes from 't' \(row 3\) to 'kg' in row 33"),),
+        layout="long",
+    ),
+    Case(
+        "daily_dates.csv",
+        (),
+        ("squid_t",),
+        (("error", 2, None, "date", r"dates closer than one month \(rows 2-5 fall in 2020-01\)"),),
+    ),
+    Case(
+        "notes_column.csv",
+        ("hake_t",),
+        (),
+        (("warning", 2, None, "remarks", r"column 'remarks' holds text, not numbers"),),
+    ),
+    Case(
+        "series_all_text.csv",
+        ("hake_t",),
+        (),
+        (("warning", 2, None, "cod_t", r"holds text, not numbers \(e\.g\. 'n/k' in row 2\)"),),
+    ),
     Case("utf16_tab.txt", ("hake_t", "cod_t"), (), (), extra={"value": ("cod_t", "1990", 430.0)}),
-    Case("gappy_series.csv", ("hake_t",), (), (("warning", 2, "1980", "hake_t", r"17 of 39 years are missing"),)),
-    Case("semicolon_ambiguous.csv", ("hake_t",), (), (("warning", None, None, None, r"'1,100' could mean 1100 or 1\.100; the ',' was read as the decimal mark"),),
-         extra={"value": ("hake_t", "1990", 1.1)}),
-    Case("unclosed_quote.csv", (), ("hake_t", "cod_t"), (("warning", 16, None, None, r"a quoted cell spans several lines"),)),
+    Case(
+        "gappy_series.csv",
+        ("hake_t",),
+        (),
+        (("warning", 2, "1980", "hake_t", r"17 of 39 years are missing"),),
+    ),
+    Case(
+        "semicolon_ambiguous.csv",
+        ("hake_t",),
+        (),
+        (
+            (
+                "warning",
+                None,
+                None,
+                None,
+                r"'1,100' could mean 1100 or 1\.100; the ',' was read as the decimal mark",
+            ),
+        ),
+        extra={"value": ("hake_t", "1990", 1.1)},
+    ),
+    Case(
+        "unclosed_quote.csv",
+        (),
+        ("hake_t", "cod_t"),
+        (("warning", 16, None, None, r"a quoted cell spans several lines"),),
+    ),
 ]
 
 
@@ -127,18 +420,27 @@ def test_malformed_file_gives_the_exact_verdict(case: Case):
     assert set(table.series) == set(case.usable)
     assert {n for n, i in table.info.items() if not i.usable} == set(case.unusable)
     for name in case.usable:
-        assert table.info[name].usable and not any(p.severity == "error" for p in table.info[name].problems)
+        assert table.info[name].usable and not any(
+            p.severity == "error" for p in table.info[name].problems
+        )
     for expected in case.must:
-        assert any(_matches(p, *expected) for p in table.problems), (expected, [p.summary() for p in table.problems])
+        assert any(_matches(p, *expected) for p in table.problems), (
+            expected,
+            [p.summary() for p in table.problems],
+        )
     if "value" in case.extra:
         name, time, value = case.extra["value"]
-        assert table.series[name][pd.Period(time, freq=table.series[name].index.freq)] == pytest.approx(value)
+        assert table.series[name][
+            pd.Period(time, freq=table.series[name].index.freq)
+        ] == pytest.approx(value)
     if "unit" in case.extra:
         name, unit = case.extra["unit"]
         assert table.info[name].unit == unit
 
 
-@pytest.mark.parametrize("case", [c for c in CASES if not c.raises], ids=[c.file for c in CASES if not c.raises])
+@pytest.mark.parametrize(
+    "case", [c for c in CASES if not c.raises], ids=[c.file for c in CASES if not c.raises]
+)
 def test_every_problem_has_a_severity_and_the_series_problems_name_their_series(case: Case):
     table = fc.read_table(BAD / case.file)
     for p in table.problems:
@@ -169,7 +471,9 @@ def _years(n: int = 20, start: int = 1990) -> list[int]:
 def _wide_text(sep=",", dec=".", nl="\n", header=("year", "hake_t", "cod_t")) -> str:
     lines = [sep.join(header)]
     for k, y in enumerate(_years()):
-        lines.append(sep.join([str(y), f"{1000 + 10.5 * k:.1f}".replace(".", dec), f"{200 + k}{dec}25"]))
+        lines.append(
+            sep.join([str(y), f"{1000 + 10.5 * k:.1f}".replace(".", dec), f"{200 + k}{dec}25"])
+        )
     return nl.join(lines) + nl
 
 
@@ -188,7 +492,16 @@ EXPECTED_HAKE = np.array([1000 + 10.5 * k for k in range(20)])
         (_wide_text(sep="\t", dec=","), "cp1252"),
         ("\ufeff" + _wide_text(sep="\t", nl="\r\n"), "utf-16-le"),
     ],
-    ids=["comma", "crlf", "bom", "semicolon-decimal-comma", "bom-crlf-semicolon", "tab", "tab-decimal-comma", "utf16"],
+    ids=[
+        "comma",
+        "crlf",
+        "bom",
+        "semicolon-decimal-comma",
+        "bom-crlf-semicolon",
+        "tab",
+        "tab-decimal-comma",
+        "utf16",
+    ],
 )
 def test_delimiters_decimals_and_encodings_read_the_same_values(text, encoding):
     table = fc.read_table(text.encode(encoding), name="x.csv")
@@ -200,7 +513,9 @@ def test_delimiters_decimals_and_encodings_read_the_same_values(text, encoding):
 
 
 def test_series_is_float_on_a_complete_period_index_with_gaps_as_nan():
-    text = "year,hake_t\n" + "".join(f"{y},{100 + y - 1990}\n" for y in _years() if y not in (1995, 1996))
+    text = "year,hake_t\n" + "".join(
+        f"{y},{100 + y - 1990}\n" for y in _years() if y not in (1995, 1996)
+    )
     table = fc.read_table(text.encode(), name="gaps.csv")
     s = table.series["hake_t"]
     assert isinstance(s.index, pd.PeriodIndex) and s.index.freqstr.upper().startswith("Y")
@@ -218,11 +533,24 @@ def test_series_is_float_on_a_complete_period_index_with_gaps_as_nan():
         ([f"{2000 + k // 4}Q{k % 4 + 1}" for k in range(24)], "quarterly", "Q-DEC", "2000-Q1"),
         ([f"{2000 + k // 12}-{k % 12 + 1:02d}" for k in range(40)], "monthly", "M", "2000-01"),
         ([f"{2000 + k // 12}-{k % 12 + 1:02d}-01" for k in range(40)], "monthly", "M", "2000-01"),
-        ([f"{2000 + k // 4}-{3 * (k % 4) + 1:02d}-01" for k in range(24)], "quarterly", "Q-DEC", "2000-Q1"),
+        (
+            [f"{2000 + k // 4}-{3 * (k % 4) + 1:02d}-01" for k in range(24)],
+            "quarterly",
+            "Q-DEC",
+            "2000-Q1",
+        ),
         ([f"{1990 + k}-06-30" for k in range(20)], "annual", "Y-DEC", "1990"),
         ([str(1990 + k) for k in range(20)], "annual", "Y-DEC", "1990"),
     ],
-    ids=["YYYY-Qn", "YYYYQn", "YYYY-MM", "monthly-dates", "quarterly-dates", "annual-dates", "years"],
+    ids=[
+        "YYYY-Qn",
+        "YYYYQn",
+        "YYYY-MM",
+        "monthly-dates",
+        "quarterly-dates",
+        "annual-dates",
+        "years",
+    ],
 )
 def test_time_formats_give_the_frequency(cells, frequency, freqstr, start):
     text = "period,value_t\n" + "".join(f"{c},{10 + (k * 7) % 13}\n" for k, c in enumerate(cells))
@@ -233,7 +561,9 @@ def test_time_formats_give_the_frequency(cells, frequency, freqstr, start):
 
 
 def test_year_and_month_columns_combine_into_a_monthly_series():
-    text = "year,month,squid_t\n" + "".join(f"{2000 + k // 12},{k % 12 + 1},{50 + (k * 5) % 17}\n" for k in range(40))
+    text = "year,month,squid_t\n" + "".join(
+        f"{2000 + k // 12},{k % 12 + 1},{50 + (k * 5) % 17}\n" for k in range(40)
+    )
     table = fc.read_table(text.encode(), name="ym.csv")
     assert table.info["squid_t"].frequency == "monthly"
     assert table.info["squid_t"].end == "2003-04"
@@ -254,7 +584,11 @@ def test_long_layout_with_unit_column_and_unsorted_records():
 
 def test_long_layout_is_found_without_known_header_words():
     # A text column with repeated names, a time column with repeated times, one numeric column.
-    rows = ["grp,when,tonn"] + [f"{s},{y},{k + (7 if s == 'sei' else 1) * (y - 1990) % 11}" for k, s in enumerate(("sei", "lyr")) for y in _years()]
+    rows = ["grp,when,tonn"] + [
+        f"{s},{y},{k + (7 if s == 'sei' else 1) * (y - 1990) % 11}"
+        for k, s in enumerate(("sei", "lyr"))
+        for y in _years()
+    ]
     table = fc.read_table(("\n".join(rows) + "\n").encode(), name="long2.csv")
     assert table.layout == "long"
     assert set(table.info) == {"sei", "lyr"}
@@ -262,8 +596,16 @@ def test_long_layout_is_found_without_known_header_words():
 
 @pytest.mark.parametrize(
     ("header", "unit"),
-    [("hake_t", "t"), ("hake (tonnes)", "tonnes"), ("cod [kg]", "kg"), ("hake_kg_per_tow", "kg/tow"),
-     ("cpue_index", "index"), ("sea_temp_anomaly_degC", "degC"), ("hake", None), ("hake_north", None)],
+    [
+        ("hake_t", "t"),
+        ("hake (tonnes)", "tonnes"),
+        ("cod [kg]", "kg"),
+        ("hake_kg_per_tow", "kg/tow"),
+        ("cpue_index", "index"),
+        ("sea_temp_anomaly_degC", "degC"),
+        ("hake", None),
+        ("hake_north", None),
+    ],
 )
 def test_header_unit_rule(header, unit):
     assert header_unit(header) == unit
@@ -279,7 +621,10 @@ def test_exactly_fifteen_annual_values_are_enough():
     text14 = "year,hake_t\n" + "".join(f"{2000 + k},{10 + k % 4}\n" for k in range(14))
     table = fc.read_table(text14.encode(), name="n14.csv")
     assert "hake_t" not in table.series
-    assert any("has 14 non-missing values" in p.message and "at least 15" in p.message for p in table.errors)
+    assert any(
+        "has 14 non-missing values" in p.message and "at least 15" in p.message
+        for p in table.errors
+    )
 
 
 # ---------------------------------------------------------------------------------------------
@@ -320,7 +665,9 @@ def _workbook(path: Path, sheets: dict[str, list[list]]) -> Path:
 
 
 def test_xlsx_first_sheet_is_read_and_the_report_says_which(tmp_path):
-    rows = [["year", "hake_t", "cod_t"]] + [[1990 + k, 1000 + 10.5 * k, None if k == 3 else 200 + k] for k in range(20)]
+    rows = [["year", "hake_t", "cod_t"]] + [
+        [1990 + k, 1000 + 10.5 * k, None if k == 3 else 200 + k] for k in range(20)
+    ]
     path = _workbook(tmp_path / "landings.xlsx", {"Landings": rows, "Notes": [["made by hand"]]})
     table = fc.read_table(path)
     np.testing.assert_allclose(table.series["hake_t"].to_numpy(), EXPECTED_HAKE)
@@ -332,7 +679,9 @@ def test_xlsx_first_sheet_is_read_and_the_report_says_which(tmp_path):
 def test_xlsx_dates_and_bytes_upload(tmp_path):
     from datetime import datetime
 
-    rows = [["date", "squid_t"]] + [[datetime(2000 + k // 12, k % 12 + 1, 1), 50.0 + (k * 7) % 19] for k in range(40)]
+    rows = [["date", "squid_t"]] + [
+        [datetime(2000 + k // 12, k % 12 + 1, 1), 50.0 + (k * 7) % 19] for k in range(40)
+    ]
     path = _workbook(tmp_path / "squid.xlsx", {"Sheet1": rows})
     table = fc.read_table(path.read_bytes(), name="squid.xlsx")
     assert table.info["squid_t"].frequency == "monthly" and table.info["squid_t"].usable
@@ -341,3 +690,63 @@ def test_xlsx_dates_and_bytes_upload(tmp_path):
 def test_damaged_xlsx_raises_input_error():
     with pytest.raises(fc.InputError, match=r"readable \.xlsx workbook"):
         fc.read_table(b"PK\x03\x04 not really a workbook", name="broken.xlsx")
+
+
+# ---------------------------------------------------------------------------------------------
+# a realistic spreadsheet export, layout detection limits
+# ---------------------------------------------------------------------------------------------
+
+
+def _german_export() -> bytes:
+    # Invented figures; the shape is that of a cp1252 semicolon export with a title line, a
+    # units row, thousands dots, decimal commas, a remarks column, a total row and CRLF.
+    lines = ["Anlandungen Nordküste – vorläufige Zahlen;;;;", ";;;;", "Jahr;Seehecht;Kabeljau;Bemerkung;", ";t;t;;"]
+    for k in range(24):
+        hake = f"{1200 + 37.25 * k:,.2f}".replace(",", "X").replace(".", ",").replace("X", ".")
+        cod = "" if k == 7 else f"{300 + k},5"
+        lines.append(f"{2001 + k};{hake};{cod};{'vorl.' if k > 20 else ''};")
+    lines += ["Summe;99.999,00;7.777,0;;", ";;;;"]
+    return ("\r\n".join(lines) + "\r\n").encode("cp1252")
+
+
+def test_a_messy_spreadsheet_export_reads_with_warnings_only():
+    table = fc.read_table(_german_export(), name="anlandungen.csv")
+    assert not table.errors
+    assert set(table.series) == {"Seehecht", "Kabeljau"}
+    np.testing.assert_allclose(table.series["Seehecht"].to_numpy(), [1200 + 37.25 * k for k in range(24)])
+    assert table.info["Kabeljau"].unit == "t" and table.info["Kabeljau"].missing == 1
+    messages = " | ".join(p.summary() for p in table.problems)
+    for needle in ("Windows-1252", "row 1 above the header (row 3) was skipped", "row 4 looks like a units row",
+                   "row 29 was skipped: 'Summe' is not a time", "column 'Bemerkung' holds text",
+                   "row 12, 2008, column 'Kabeljau': empty or NA cells in row 12 (2008)"):
+        assert needle in messages
+
+
+def test_a_wide_file_with_a_status_column_and_a_duplicated_year_stays_wide():
+    rows = ["year,stock_status,hake_t"] + [f"{1990 + k},{'ok' if k % 3 else 'low'},{100 + k}" for k in range(20)]
+    rows.insert(6, "1994,ok,150")
+    table = fc.read_table(("\n".join(rows) + "\n").encode(), name="status.csv")
+    assert table.layout == "wide"
+    assert any(p.severity == "error" and p.time == "1994" and p.column == "hake_t" for p in table.problems)
+
+
+def test_the_time_column_is_found_without_a_time_header():
+    rows = ["station,when,hake_t"] + [f"north,{1990 + k},{100 + (k * 7) % 11}" for k in range(20)]
+    table = fc.read_table(("\n".join(rows) + "\n").encode(), name="nohdr.csv")
+    assert table.info["hake_t"].start == "1990" and "hake_t" in table.series
+
+
+def test_year_and_quarter_columns_combine_into_a_quarterly_series():
+    text = "year,quarter,cpue\n" + "".join(f"{2000 + k // 4},Q{k % 4 + 1},{5 + (k * 3) % 7}\n" for k in range(24))
+    table = fc.read_table(text.encode(), name="yq.csv")
+    assert table.info["cpue"].frequency == "quarterly" and table.info["cpue"].end == "2005-Q4"
+
+
+def test_text_and_missing_cells_never_disappear_from_the_report():
+    # Nothing is dropped silently: 20 rows in, 20 periods accounted for.
+    text = "year,hake_t\n" + "".join(f"{1990 + k},{'about 900' if k == 4 else 'NA' if k == 9 else 100 + k}\n" for k in range(20))
+    table = fc.read_table(text.encode(), name="acc.csv")
+    info = table.info["hake_t"]
+    assert info.observations + info.missing == 20
+    rows = {p.row for p in info.problems}
+    assert {6, 11} <= rows
