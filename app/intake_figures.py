@@ -189,87 +189,104 @@ def stationarity_figure(report: StationarityReport, *, height: int = 640) -> go.
     The column of the chosen ``d`` is marked in its title; bars beyond the approximate 95%
     limits (dashed lines, 1.96 / sqrt(n)) are drawn darker.
     """
-    levels = [d for d in (0, 1, 2) if d in report.differenced]
-    if not levels:
-        levels = [0]
-    seasonal = " after one seasonal difference" if report.seasonal_d else ""
+    levels = [d for d in (0, 1, 2) if d in report.differenced] or [0]
+    ncols = len(levels)
+    seasonal = " (after a seasonal difference)" if report.seasonal_d else ""
     titles = []
     for d in levels:
         name = _LEVEL_NAMES.get(d, f"{d} differences")
         titles.append(
             f"<b>{name} \u2714 chosen (d = {d})</b>" if d == report.d else f"{name} (d = {d})"
         )
-    rows = ["Values" + seasonal, "ACF", "PACF"]
     fig = make_subplots(
-        rows=3,
-        cols=len(levels),
-        column_titles=titles,
-        row_titles=None,
-        vertical_spacing=0.1,
-        horizontal_spacing=0.06,
+        rows=3, cols=ncols, column_titles=titles, vertical_spacing=0.1, horizontal_spacing=0.06
     )
+    traces: list[Any] = []
+    rows: list[int] = []
+    cols: list[int] = []
+    shapes: list[dict[str, Any]] = []
+    axes: dict[str, Any] = {}
+    dash_line = {"color": PALETTE["coral"], "width": 1.2, "dash": "dash"}
     for col, d in enumerate(levels, start=1):
         series = report.differenced.get(d)
-        chosen = d == report.d
-        line_color = PALETTE["teal"] if chosen else PALETTE["slate"]
+        line_color = PALETTE["teal"] if d == report.d else PALETTE["slate"]
         if series is not None and len(series):
             frequency = _frequency(series)
-            x = periods_x(series.index, frequency)
             vals = [None if pd.isna(v) else float(v) for v in series.tolist()]
-            fig.add_trace(
+            traces.append(
                 go.Scatter(
-                    x=x,
+                    x=periods_x(series.index, frequency),
                     y=vals,
                     mode="lines",
                     connectgaps=False,
                     line={"color": line_color, "width": 1.8},
                     showlegend=False,
                     hovertemplate="%{x}: %{y:.4g}<extra></extra>",
-                ),
-                row=1,
-                col=col,
+                )
             )
-            if frequency != "annual":
-                fig.update_xaxes(type="date", row=1, col=col)
-            else:
-                fig.update_xaxes(tickformat="d", row=1, col=col)
+            rows.append(1)
+            cols.append(col)
+            axes[_axis("xaxis", 1, col, ncols)] = (
+                {"tickformat": "d"} if frequency == "annual" else {"type": "date"}
+            )
         corr = _correlogram_for(report, d)
+        if corr is None:
+            continue
+        lags = list(corr.lags)
         for row, key in ((2, "acf"), (3, "pacf")):
-            if corr is None:
-                continue
             vals = np.asarray(getattr(corr, key), dtype=float)
-            lags = list(corr.lags)
             strong = np.abs(vals) > corr.limit
-            colors = [PALETTE["teal_dark"] if s else "#9cc7cf" for s in strong]
-            fig.add_trace(
+            traces.append(
                 go.Bar(
                     x=lags,
                     y=vals,
-                    marker_color=colors,
+                    marker_color=[PALETTE["teal_dark"] if s else "#9cc7cf" for s in strong],
                     width=0.6,
                     showlegend=False,
                     hovertemplate=f"lag %{{x}}: {key.upper()} %{{y:.2f}}<extra></extra>",
-                ),
-                row=row,
-                col=col,
-            )
-            for sign in (1, -1):
-                fig.add_hline(
-                    y=sign * corr.limit,
-                    line={"color": PALETTE["coral"], "width": 1.2, "dash": "dash"},
-                    row=row,
-                    col=col,
                 )
-            fig.update_yaxes(range=[-1.05, 1.05], row=row, col=col)
-            fig.update_xaxes(
-                title_text="lag" if row == 3 else None, row=row, col=col, dtick=_lag_tick(len(lags))
             )
-    for row, label in enumerate(rows, start=1):
-        fig.update_yaxes(title_text=label, row=row, col=1)
+            rows.append(row)
+            cols.append(col)
+            n = (row - 1) * ncols + col
+            suffix = "" if n == 1 else str(n)
+            for sign in (1, -1):
+                shapes.append(
+                    {
+                        "type": "line",
+                        "xref": f"x{suffix} domain",
+                        "yref": f"y{suffix}",
+                        "x0": 0,
+                        "x1": 1,
+                        "y0": sign * corr.limit,
+                        "y1": sign * corr.limit,
+                        "line": dash_line,
+                    }
+                )
+            axes[_axis("yaxis", row, col, ncols)] = {"range": [-1.05, 1.05]}
+            axes[_axis("xaxis", row, col, ncols)] = {
+                "dtick": _lag_tick(len(lags)),
+                "title": {"text": "lag"} if row == 3 else None,
+            }
+    for row, label in enumerate(["Values" + seasonal, "ACF", "PACF"], start=1):
+        key = _axis("yaxis", row, 1, ncols)
+        axes.setdefault(key, {})["title"] = {"text": label}
+    fig.add_traces(traces, rows=rows, cols=cols)
     _base_layout(fig, height=height)
-    fig.update_layout(hovermode="closest", bargap=0.3, margin={"l": 64, "r": 16, "t": 56, "b": 40})
+    fig.update_layout(
+        shapes=shapes,
+        hovermode="closest",
+        bargap=0.3,
+        margin={"l": 64, "r": 16, "t": 56, "b": 40},
+        **axes,
+    )
     fig.update_annotations(font={"size": 14, "color": PALETTE["deep"]})
     return fig
+
+
+def _axis(kind: str, row: int, col: int, ncols: int) -> str:
+    n = (row - 1) * ncols + col
+    return kind if n == 1 else f"{kind}{n}"
 
 
 def _lag_tick(n: int) -> int:

@@ -334,6 +334,10 @@ def sync_selection(
     """Keep the pickers and ``hc-selection`` in step; save uploads."""
     store = get_store()
     trigger = ctx.triggered_id
+    # On the page's first render Dash reports every input as triggered: only fill the pickers.
+    initial = len(ctx.triggered) > 1
+    if initial:
+        trigger = None
     sel = update_selection(data)
     status: Any = no_update
     write = trigger is not None
@@ -369,6 +373,7 @@ def sync_selection(
         transform=resolved["transform"],
     )
     table = store.load_table(resolved["dataset_id"]) if resolved["dataset_id"] else None
+    write = write and sel != update_selection(data)
     return [
         sel if write else no_update,
         dataset_options(store, sel["uploads"]),
