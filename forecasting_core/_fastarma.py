@@ -36,30 +36,64 @@ def _harvey_loglik_py(w: np.ndarray, phi: np.ndarray, theta: np.ndarray) -> tupl
 
     Returns (sum of v_t^2 / F_t, sum of log F_t, number of observations used); the caller
     concentrates sigma2 out. ``phi``/``theta`` follow x_t = sum phi_i x_{t-i} + e_t + sum theta_j e_{t-j}.
+    The transition matrix is the companion form (first column phi, ones above the diagonal), so
+    every product with it is written out in O(r^2) loops without temporary arrays or BLAS calls:
+    (T M)[i, j] = phi_i M[0, j] + M[i+1, j].
     """
     p = phi.shape[0]
     q = theta.shape[0]
     r = max(p, q + 1)
-    T = np.zeros((r, r))
+    ph = np.zeros(r)
     for i in range(p):
-        T[i, 0] = phi[i]
-    for i in range(r - 1):
-        T[i, i + 1] = 1.0
+        ph[i] = phi[i]
     R = np.zeros(r)
     R[0] = 1.0
     for j in range(q):
         R[j + 1] = theta[j]
-    RR = np.outer(R, R)
-    # Unconditional state covariance P = T P T' + RR' by the doubling algorithm:
-    # P = sum_k T^k RR' T'^k, with the number of terms doubling at every step.
-    P = RR.copy()
-    Ak = T.copy()
+    # Unconditional state covariance P = T P T' + R R' by fixed-point iteration with doubling
+    # of the horizon covered: P_{k+1} = P_k + A_k P_k A_k', A_{k+1} = A_k A_k, A_0 = T.
+    P = np.empty((r, r))
+    for i in range(r):
+        for j in range(r):
+            P[i, j] = R[i] * R[j]
+    A = np.zeros((r, r))
+    for i in range(r):
+        A[i, 0] = ph[i]
+        if i + 1 < r:
+            A[i, i + 1] = 1.0
+    AP = np.empty((r, r))
+    AA = np.empty((r, r))
     for _ in range(64):
-        P = P + Ak @ P @ Ak.T
-        Ak = Ak @ Ak
-        if np.abs(Ak).max() < 1e-13:
+        for i in range(r):
+            for j in range(r):
+                acc = 0.0
+                for k in range(r):
+                    acc += A[i, k] * P[k, j]
+                AP[i, j] = acc
+        biggest = 0.0
+        for i in range(r):
+            for j in range(r):
+                acc = 0.0
+                for k in range(r):
+                    acc += AP[i, k] * A[j, k]
+                P[i, j] += acc
+        for i in range(r):
+            for j in range(r):
+                acc = 0.0
+                for k in range(r):
+                    acc += A[i, k] * A[k, j]
+                AA[i, j] = acc
+                if abs(acc) > biggest:
+                    biggest = abs(acc)
+        for i in range(r):
+            for j in range(r):
+                A[i, j] = AA[i, j]
+        if biggest < 1e-13:
             break
     a = np.zeros(r)
+    K = np.empty(r)
+    row0 = np.empty(r)
+    TP = np.empty((r, r))
     ssq = 0.0
     sumlog = 0.0
     nobs = 0
@@ -67,24 +101,112 @@ def _harvey_loglik_py(w: np.ndarray, phi: np.ndarray, theta: np.ndarray) -> tupl
         y = w[t]
         if not math.isnan(y):
             F = P[0, 0]
-            if F <= 0.0:
+            if not F > 0.0:
                 return math.inf, math.inf, 0
             v = y - a[0]
-            K = P[:, 0] / F
-            a = a + K * v
-            P = P - np.outer(K, P[0, :])
+            for i in range(r):
+                K[i] = P[i, 0] / F
+            for i in range(r):
+                a[i] += K[i] * v
+            for j in range(r):
+                row0[j] = P[0, j]
+            for i in range(r):
+                for j in range(r):
+                    P[i, j] -= K[i] * row0[j]
             ssq += v * v / F
             sumlog += math.log(F)
             nobs += 1
-        a = T @ a
-        P = T @ P @ T.T + RR
+        # Predict: a <- T a, P <- T P T' + R R'.
+        a0 = a[0]
+        for i in range(r - 1):
+            a[i] = ph[i] * a0 + a[i + 1]
+        a[r - 1] = ph[r - 1] * a0
+        for i in range(r):
+            for j in range(r):
+                TP[i, j] = ph[i] * P[0, j] + (P[i + 1, j] if i + 1 < r else 0.0)
+        for i in range(r):
+            for j in range(r):
+                P[i, j] = TP[i, 0] * ph[j] + (TP[i, j + 1] if j + 1 < r else 0.0) + R[i] * R[j]
     return ssq, sumlog, nobs
 
 
+def _constrain_py(x: np.ndarray) -> np.ndarray:
+    n = x.shape[0]
+    phi = np.zeros(n)
+    prev = np.zeros(n)
+    for k in range(n):
+        rk = x[k] / math.sqrt(1.0 + x[k] * x[k])
+        for j in range(k):
+            prev[j] = phi[j]
+        phi[k] = rk
+        for j in range(k):
+            phi[j] = prev[j] - rk * prev[k - 1 - j]
+    return phi
+
+
+def _expand_py(short: np.ndarray, seasonal: np.ndarray, m: int, sign: float) -> np.ndarray:
+    """Lag coefficients of (1 + sign*sum a_i B^i)(1 + sign*sum A_j B^{mj}), times sign."""
+    p = short.shape[0]
+    big = seasonal.shape[0]
+    out = np.zeros(p + m * big)
+    for i in range(p):
+        out[i] += short[i]
+    for j in range(big):
+        out[m * (j + 1) - 1] += seasonal[j]
+        for i in range(p):
+            out[m * (j + 1) + i] += sign * short[i] * seasonal[j]
+    return out
+
+
+def _negloglik_py(
+    x: np.ndarray, ws: np.ndarray, p: int, q: int, P: int, Q: int, m: int, mean: bool
+) -> float:
+    """Concentrated negative log-likelihood at unconstrained parameters x (standardised scale)."""
+    ar = _constrain(x[:p])
+    ma = -_constrain(x[p : p + q])
+    sar = _constrain(x[p + q : p + q + P])
+    sma = -_constrain(x[p + q + P : p + q + P + Q])
+    if P > 0 or Q > 0:
+        phi = _expand(ar, sar, m, -1.0)
+        theta = _expand(ma, sma, m, 1.0)
+    else:
+        phi = ar
+        theta = ma
+    mu = x[p + q + P + Q] if mean else 0.0
+    ssq, sumlog, n = _harvey_loglik(ws - mu, phi, theta)
+    if n == 0 or not (ssq > 0.0) or not math.isfinite(ssq):
+        return 1e10
+    return 0.5 * (n * (_LOG_2PI + math.log(ssq / n) + 1.0) + sumlog)
+
+
+def _value_and_grad_py(
+    x: np.ndarray, ws: np.ndarray, p: int, q: int, P: int, Q: int, m: int, mean: bool
+) -> tuple[float, np.ndarray]:
+    """Negative log-likelihood and its forward-difference gradient in one compiled call."""
+    f0 = _negloglik(x, ws, p, q, P, Q, m, mean)
+    k = x.shape[0]
+    grad = np.zeros(k)
+    xh = x.copy()
+    for i in range(k):
+        h = 1e-7 * max(1.0, abs(x[i]))
+        xh[i] = x[i] + h
+        grad[i] = (_negloglik(xh, ws, p, q, P, Q, m, mean) - f0) / h
+        xh[i] = x[i]
+    return f0, grad
+
+
 if _HAVE_NUMBA:
-    _harvey_loglik = numba.njit(cache=True, fastmath=False)(_harvey_loglik_py)
+    _harvey_loglik = numba.njit(cache=True)(_harvey_loglik_py)
+    _constrain = numba.njit(cache=True)(_constrain_py)
+    _expand = numba.njit(cache=True)(_expand_py)
+    _negloglik = numba.njit(cache=True)(_negloglik_py)
+    _value_and_grad = numba.njit(cache=True)(_value_and_grad_py)
 else:  # pragma: no cover
     _harvey_loglik = _harvey_loglik_py
+    _constrain = _constrain_py
+    _expand = _expand_py
+    _negloglik = _negloglik_py
+    _value_and_grad = _value_and_grad_py
 
 
 def constrain(x: np.ndarray) -> np.ndarray:
@@ -93,15 +215,7 @@ def constrain(x: np.ndarray) -> np.ndarray:
     Each real maps to a partial autocorrelation in (-1, 1) by x / sqrt(1 + x^2); the
     Durbin-Levinson recursion turns those into AR coefficients.
     """
-    n = x.shape[0]
-    r = x / np.sqrt(1.0 + x * x)
-    phi = np.zeros(n)
-    for k in range(n):
-        prev = phi[:k].copy()
-        phi[k] = r[k]
-        for j in range(k):
-            phi[j] = prev[j] - r[k] * prev[k - 1 - j]
-    return phi
+    return _constrain(np.ascontiguousarray(x, dtype=float))
 
 
 def unconstrain(phi: np.ndarray) -> np.ndarray:
@@ -185,16 +299,6 @@ def _profile_loglik(w: np.ndarray, phi: np.ndarray, theta: np.ndarray) -> tuple[
     return -0.5 * (n * (_LOG_2PI + math.log(sigma2) + 1.0) + sumlog), sigma2, n
 
 
-def _expand(short: np.ndarray, seasonal: np.ndarray, m: int, sign: float) -> np.ndarray:
-    """Multiply (1 + sign*sum a_i B^i)(1 + sign*sum A_j B^{mj}); return the lag coefficients."""
-    left = np.concatenate(([1.0], sign * short))
-    right = np.zeros(m * seasonal.shape[0] + 1)
-    right[0] = 1.0
-    for j, value in enumerate(seasonal, start=1):
-        right[m * j] = sign * value
-    return sign * np.convolve(left, right)[1:]
-
-
 def fit_arma(
     w: np.ndarray,
     p: int,
@@ -249,11 +353,8 @@ def fit_arma(
             return _expand(ar, sar, m, -1.0), _expand(ma, sma, m, 1.0)
         return ar, ma
 
-    def negloglik(x: np.ndarray) -> float:
-        ar, ma, sar, sma, mu = unpack(x)
-        phi, theta = full(ar, ma, sar, sma)
-        ll, _, _ = _profile_loglik(ws - mu, phi, theta)
-        return 1e10 if not math.isfinite(ll) else -ll
+    def objective(x: np.ndarray) -> tuple[float, np.ndarray]:
+        return _value_and_grad(x, ws, p, q, P, Q, m, mean)
 
     x0 = np.zeros(k) if start is None else np.asarray(start, dtype=float).copy()
     if mean and start is not None:
@@ -261,7 +362,7 @@ def fit_arma(
     converged = True
     if k:
         res = optimize.minimize(
-            negloglik, x0, method="L-BFGS-B", options={"maxiter": maxiter, "gtol": 1e-6}
+            objective, x0, jac=True, method="L-BFGS-B", options={"maxiter": maxiter, "gtol": 1e-6}
         )
         x = res.x
         converged = bool(res.success) or res.status == 2  # 2: precision loss near the optimum
@@ -333,4 +434,5 @@ def screen_grid(
 def warm_up() -> None:
     """Compile (or load from the on-disk cache) the filter so no user request pays for it."""
     w = np.array([0.1, -0.2, 0.3, np.nan, 0.05, -0.1, 0.2, 0.0])
-    _harvey_loglik(w, np.array([0.3]), np.array([0.2]))
+    fit_arma(w, 1, 1, True)
+    fit_arma(w, 1, 0, False, P=1, Q=1, m=2)
