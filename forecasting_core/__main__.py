@@ -38,31 +38,53 @@ def build_parser() -> argparse.ArgumentParser:
         prog="python -m forecasting_core",
         description="Haulcast core: check catch and abundance files, forecast one series or many.",
     )
-    sub = parser.add_subparsers(dest="command", metavar="{check,forecast,batch}", parser_class=_Parser)
+    sub = parser.add_subparsers(
+        dest="command", metavar="{check,forecast,batch}", parser_class=_Parser
+    )
     sub.required = True
 
-    check = sub.add_parser("check", help="read a file and report its series, problems and stationarity")
+    check = sub.add_parser(
+        "check", help="read a file and report its series, problems and stationarity"
+    )
     check.add_argument("file", metavar="FILE", help="CSV, TSV or .xlsx file (wide or long layout)")
     check.add_argument("--json", action="store_true", help="print the report as JSON")
 
     fc = sub.add_parser("forecast", help="compare models for one series and forecast it")
     fc.add_argument("file", metavar="FILE")
     fc.add_argument("--series", required=True, metavar="NAME", help="series (column or stock) name")
-    fc.add_argument("--horizon", required=True, metavar="H", help="steps ahead at the series' frequency")
+    fc.add_argument(
+        "--horizon", required=True, metavar="H", help="steps ahead at the series' frequency"
+    )
     fc.add_argument("--order", metavar="p,d,q", help="fit this ARIMA order instead of searching")
     fc.add_argument("--seasonal", metavar="P,D,Q,m", help="seasonal order")
-    fc.add_argument("--transform", choices=TRANSFORMS, default="auto", help="transform before fitting (default auto)")
+    fc.add_argument(
+        "--transform",
+        choices=TRANSFORMS,
+        default="auto",
+        help="transform before fitting (default auto)",
+    )
     fc.add_argument("--no-constant", action="store_true", help="fit without constant/drift")
     fc.add_argument("--reference", metavar="X", help="reference level: report P(below X) per step")
     fc.add_argument("--json", action="store_true", help="print the result as JSON")
     fc.add_argument("--csv", metavar="OUT", help="also write the forecast table to this CSV file")
 
-    batch = sub.add_parser("batch", help="compare models and forecast every usable series of a file")
+    batch = sub.add_parser(
+        "batch", help="compare models and forecast every usable series of a file"
+    )
     batch.add_argument("file", metavar="FILE")
-    batch.add_argument("--horizon", required=True, metavar="H", help="steps ahead at each series' frequency")
-    batch.add_argument("--transform", choices=TRANSFORMS, default="auto", help="transform before fitting (default auto)")
+    batch.add_argument(
+        "--horizon", required=True, metavar="H", help="steps ahead at each series' frequency"
+    )
+    batch.add_argument(
+        "--transform",
+        choices=TRANSFORMS,
+        default="auto",
+        help="transform before fitting (default auto)",
+    )
     batch.add_argument("--workers", metavar="N", help="worker processes")
-    batch.add_argument("--json", action="store_true", help="print a JSON list, one object per series")
+    batch.add_argument(
+        "--json", action="store_true", help="print a JSON list, one object per series"
+    )
     batch.add_argument("--out", metavar="DIR", help="write one result file per series into DIR")
     return parser
 
@@ -163,7 +185,10 @@ def main(argv: list[str] | None = None) -> int:
         print(f"error: {exc}", file=sys.stderr)
         return EXIT_UNUSABLE
     except NotImplementedError:
-        print(f"error: the {args.command!r} command is not available in this version yet.", file=sys.stderr)
+        print(
+            f"error: the {args.command!r} command is not available in this version yet.",
+            file=sys.stderr,
+        )
         return EXIT_UNEXPECTED
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)

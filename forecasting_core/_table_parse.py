@@ -26,16 +26,13 @@ Cell = Any
 
 #: Cell texts read as missing values (compared lower-case, after stripping).
 NA_TOKENS = frozenset(
-    {"", "na", "n/a", "n.a.", "nan", "null", "none", "-", "--", "---", ".", "..", "...", "#n/a",
-     "missing", "?", "nd", "n.d.", "s/d", "#value!", "#div/0!"}
+    [""]
+    + "na n/a n.a. nan null none - -- --- . .. ... #n/a missing ? nd n.d. s/d #value! #div/0!".split()
 )
 
 #: Unit words accepted as a header suffix (``hake_t``, ``cpue index``), compared lower-case.
 KNOWN_UNITS = frozenset(
-    {"t", "kg", "g", "mt", "kt", "tonnes", "tonne", "tons", "ton", "lb", "lbs", "pounds", "n", "no",
-     "nr", "number", "count", "counts", "fish", "individuals", "thousands", "millions", "1000t",
-     "1000s", "pct", "percent", "%", "degc", "°c", "celsius", "km", "m", "nm", "usd", "eur",
-     "nok", "gbp", "cad", "hours", "days", "trips", "index", "kgperhour", "kg/h", "t/h"}
+    "t kg g mt kt tonnes tonne tons ton lb lbs pounds n no nr number count counts fish individuals thousands millions 1000t 1000s pct percent % degc °c celsius km m nm usd eur nok gbp cad hours days trips index kgperhour kg/h t/h".split()
 )
 
 _MAGIC = (
@@ -143,8 +140,16 @@ def sniff_delimiter(text: str) -> str:
 
 
 def text_grid(text: str) -> Grid:
-    """Split decoded text into rows of stripped cells (CRLF, CR and LF line ends)."""
-    delim = sniff_delimiter(text)
+    """Split decoded text into rows of stripped cells (CRLF, CR and LF line ends).
+
+    A first line ``sep=;`` (a spreadsheet's delimiter hint) sets the delimiter.
+    """
+    first = text[:8].lower()
+    delim = (
+        text[4]
+        if first.startswith("sep=") and len(text) > 4 and text[4] not in "\r\n"
+        else sniff_delimiter(text)
+    )
     csv.field_size_limit(max(csv.field_size_limit(), 64 * 1024 * 1024))
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delim)
     rows: list[list[Cell]] = []
@@ -156,7 +161,7 @@ def text_grid(text: str) -> Grid:
                 notes.append(
                     Problem(
                         "warning",
-                        "a quoted cell spans several lines; check that a quote mark (\") is not missing.",
+                        'a quoted cell spans several lines; check that a quote mark (") is not missing.',
                         row=len(rows),
                     )
                 )
@@ -170,7 +175,9 @@ def xlsx_grid(data: bytes) -> Grid:
     try:
         import openpyxl
     except ImportError:  # pragma: no cover - openpyxl is a dependency
-        raise InputError("reading .xlsx needs the openpyxl package. Save the sheet as CSV instead.") from None
+        raise InputError(
+            "reading .xlsx needs the openpyxl package. Save the sheet as CSV instead."
+        ) from None
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
@@ -227,7 +234,10 @@ def is_empty(cell: Cell) -> bool:
 _GROUP_SPACE = re.compile(r"(?<=\d)[\s\u00a0\u202f\u2009'](?=\d{3}(?!\d))")
 _SIMPLE = re.compile(r"-?\d{1,15}(?:\.\d{0,15})?")
 _PLAIN = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
-_THOUSANDS = {".": re.compile(r"[+-]?\d{1,3}(?:,\d{3})+(?:\.\d*)?"), ",": re.compile(r"[+-]?\d{1,3}(?:\.\d{3})+(?:,\d*)?")}
+_THOUSANDS = {
+    ".": re.compile(r"[+-]?\d{1,3}(?:,\d{3})+(?:\.\d*)?"),
+    ",": re.compile(r"[+-]?\d{1,3}(?:\.\d{3})+(?:,\d*)?"),
+}
 
 
 def parse_number(cell: Cell, decimal: str) -> tuple[str, float]:
@@ -268,8 +278,12 @@ def parse_number(cell: Cell, decimal: str) -> tuple[str, float]:
     return ("num", value) if math.isfinite(value) else ("text", math.nan)
 
 
-_POINT_EVIDENCE = re.compile(r"[+-]?(?:\d+\.\d{1,2}|\d+\.\d{4,}|\d{1,3}(?:,\d{3})+\.\d+|0\.\d+|\d{4,}\.\d+)")
-_COMMA_EVIDENCE = re.compile(r"[+-]?(?:\d+,\d{1,2}|\d+,\d{4,}|\d{1,3}(?:\.\d{3})+,\d+|0,\d+|\d{4,},\d+)")
+_POINT_EVIDENCE = re.compile(
+    r"[+-]?(?:\d+\.\d{1,2}|\d+\.\d{4,}|\d{1,3}(?:,\d{3})+\.\d+|0\.\d+|\d{4,}\.\d+)"
+)
+_COMMA_EVIDENCE = re.compile(
+    r"[+-]?(?:\d+,\d{1,2}|\d+,\d{4,}|\d{1,3}(?:\.\d{3})+,\d+|0,\d+|\d{4,},\d+)"
+)
 _AMBIGUOUS = re.compile(r"[+-]?\d{1,3}[.,]\d{3}")
 
 
@@ -319,16 +333,30 @@ YEAR_MIN, YEAR_MAX = 1800, 2100
 _MONTH_NAMES = {
     m: i + 1
     for i, names in enumerate(
-        [("jan", "january"), ("feb", "february"), ("mar", "march"), ("apr", "april"), ("may",),
-         ("jun", "june"), ("jul", "july"), ("aug", "august"), ("sep", "sept", "september"),
-         ("oct", "october"), ("nov", "november"), ("dec", "december")]
+        [
+            ("jan", "january"),
+            ("feb", "february"),
+            ("mar", "march"),
+            ("apr", "april"),
+            ("may",),
+            ("jun", "june"),
+            ("jul", "july"),
+            ("aug", "august"),
+            ("sep", "sept", "september"),
+            ("oct", "october"),
+            ("nov", "november"),
+            ("dec", "december"),
+        ]
     )
     for m in names
 }
 _RE_INT = re.compile(r"[+-]?\d{1,7}(?:\.0+)?")
 _RE_MONTH = re.compile(r"(\d{4})\s*(?:-|/|\.|M|m|_)\s*(\d{1,2})")
 _RE_QUARTER = re.compile(r"(\d{4})\s*[-/_ ]?\s*[Qq]([1-4])|[Qq]([1-4])\s*[-/_ ]?\s*(\d{4})")
-_RE_DATE = re.compile(r"(\d{4})[-/](\d{1,2})[-/](\d{1,2})(?:[T ]\d{1,2}:\d{2}(?::\d{2}(?:\.\d+)?)?)?")
+_RE_DATE = re.compile(
+    r"(\d{4})[-/](\d{1,2})[-/](\d{1,2})(?:[T ]\d{1,2}:\d{2}(?::\d{2}(?:\.\d+)?)?)?"
+)
+_RE_DMY = re.compile(r"(\d{1,2})([./-])(\d{1,2})\2(\d{4})")
 _RE_NAMED_MONTH = re.compile(r"([A-Za-z]{3,9})\.?[\s-]+(\d{4})|(\d{4})[\s-]+([A-Za-z]{3,9})\.?")
 
 
@@ -378,7 +406,46 @@ def parse_time(cell: Cell) -> tuple[str, tuple[int, ...]]:
         mo = _MONTH_NAMES.get(name.lower())
         if mo:
             return _year_checked("M", (int(year), mo))
+    m = _RE_DMY.fullmatch(s)
+    if m:
+        a, sep, b, y = int(m.group(1)), m.group(2), int(m.group(3)), int(m.group(4))
+        if max(a, b) > 31 or min(a, b) < 1 or min(a, b) > 12:
+            return "bad", ()
+        return _year_checked("DX", (y, a, b, 1 if sep == "." else 0))
     return "bad", ()
+
+
+def resolve_day_month(cells: Iterable[Cell]) -> tuple[bool, str | None]:
+    """Decide whether ``a/b/yyyy`` dates of one column are day first.
+
+    Dots (``01.03.2000``) are day first. Otherwise a first part above 12 means day first, a
+    second part above 12 month first; if neither, the part that stays constant is the day
+    (monthly data keep the day fixed). Returns (day_first, reason when it was a guess).
+    """
+    parts = [p for kind, p in (parse_time(c) for c in cells) if kind in ("DX",)]
+    if not parts:
+        return True, None
+    if any(p[3] for p in parts) or any(p[1] > 12 for p in parts):
+        return True, None
+    if any(p[2] > 12 for p in parts):
+        return False, None
+    firsts, seconds = {p[1] for p in parts}, {p[2] for p in parts}
+    if len(firsts) == 1 and len(seconds) > 1:
+        return True, None
+    if len(seconds) == 1 and len(firsts) > 1:
+        return False, None
+    return True, "no date shows whether the day or the month comes first"
+
+
+def day_month_date(parts: Sequence[int], day_first: bool) -> tuple[str, tuple[int, ...]]:
+    """Turn ``("DX", (y, a, b, dot))`` parts into a checked ``("D", (y, m, d))``."""
+    y, a, b = parts[0], parts[1], parts[2]
+    month, day = (b, a) if day_first else (a, b)
+    try:
+        date(y, month, day)
+    except ValueError:
+        return "bad", ()
+    return "D", (y, month, day)
 
 
 def _year_checked(kind: str, parts: tuple[int, ...]) -> tuple[str, tuple[int, ...]]:

@@ -124,7 +124,12 @@ def build_series(
     # Text in numeric cells: missing, with a warning per cell (the first MAX_LISTED).
     texts = [o for o in obs if o.kind == "text"]
     for o in texts[:MAX_LISTED]:
-        add("warning", f"{_short(o.raw)!r} is not a number; the cell was read as missing.{_text_hint(o.raw, decimal)}", o.row, o.ordinal)
+        add(
+            "warning",
+            f"{_short(o.raw)!r} is not a number; the cell was read as missing.{_text_hint(o.raw, decimal)}",
+            o.row,
+            o.ordinal,
+        )
     if len(texts) > MAX_LISTED:
         rest = texts[MAX_LISTED:]
         add(
@@ -176,11 +181,26 @@ def build_series(
             conflicts.append((ordinal, nums[1].row))
             if len(conflicts) <= 5:
                 shown = " and ".join(f"{_num(o.value)} (row {o.row})" for o in nums[:4])
-                add("error", f"{where} with different values: {shown}. Keep one row per period and delete the others.", nums[1].row, ordinal)
+                add(
+                    "error",
+                    f"{where} with different values: {shown}. Keep one row per period and delete the others.",
+                    nums[1].row,
+                    ordinal,
+                )
         elif len(group) > 1 and nums and len(nums) < len(group):
-            add("warning", f"{where}; only row {nums[0].row} has a value ({_num(nums[0].value)}), which was used.", group[0].row, ordinal)
+            add(
+                "warning",
+                f"{where}; only row {nums[0].row} has a value ({_num(nums[0].value)}), which was used.",
+                group[0].row,
+                ordinal,
+            )
         elif len(group) > 1 and nums:
-            add("warning", f"{where} with the same value ({_num(nums[0].value)}); it was kept once.", group[1].row, ordinal)
+            add(
+                "warning",
+                f"{where} with the same value ({_num(nums[0].value)}); it was kept once.",
+                group[1].row,
+                ordinal,
+            )
         if nums:
             values[ordinal] = nums[0].value
             source_row[ordinal] = nums[0].row
@@ -209,7 +229,11 @@ def build_series(
     first, last = min(values), max(values)
     inside = range(first, last + 1)
     absent = [o for o in inside if o not in values and o not in explicit_missing]
-    blank = [explicit_missing[o] for o in inside if o in explicit_missing and explicit_missing[o].kind == "na"]
+    blank = [
+        explicit_missing[o]
+        for o in inside
+        if o in explicit_missing and explicit_missing[o].kind == "na"
+    ]
     n_periods = last - first + 1
     words = "years" if freq == "annual" else "periods"
     if blank:
@@ -260,14 +284,26 @@ def build_series(
             first,
         )
     for kind, test, advice in (
-        ("negative", lambda v: v < 0, "fine for anomalies or differences, but catches, landings and survey indices cannot be negative (check the sign); log and Box-Cox transforms need values above zero."),
-        ("zero", lambda v: v == 0, "zeros block the log and Box-Cox transforms (use transform 'none'); if a zero means 'not recorded', leave the cell empty instead."),
+        (
+            "negative",
+            lambda v: v < 0,
+            "fine for anomalies or differences, but catches, landings and survey indices cannot be negative (check the sign); log and Box-Cox transforms need values above zero.",
+        ),
+        (
+            "zero",
+            lambda v: v == 0,
+            "zeros block the log and Box-Cox transforms (use transform 'none'); if a zero means 'not recorded', leave the cell empty instead.",
+        ),
     ):
         hits = [o for o in sorted(values) if test(values[o])]
         if hits:
-            shown = ", ".join(f"{label(freq, o)} (row {source_row[o]}: {_num(values[o])})" for o in hits[:5])
+            shown = ", ".join(
+                f"{label(freq, o)} (row {source_row[o]}: {_num(values[o])})" for o in hits[:5]
+            )
             more = f" and {len(hits) - 5} more" if len(hits) > 5 else ""
-            count = f"{len(hits)} of {n_obs} values are {kind}" if len(hits) > 1 else f"1 {kind} value"
+            count = (
+                f"{len(hits)} of {n_obs} values are {kind}" if len(hits) > 1 else f"1 {kind} value"
+            )
             add("warning", f"{count}: {shown}{more}; {advice}", source_row[hits[0]], hits[0])
 
     found.sort(key=lambda p: (p.row is None, p.row or 0))

@@ -237,7 +237,10 @@ def test_check_never_prints_a_traceback_on_any_corpus_file(as_json, monkeypatch,
 def test_the_module_entry_point_exits_2_with_a_plain_message():
     proc = _run("check", str(BAD / "pdf_renamed.csv"))
     assert proc.returncode == 2
-    assert proc.stderr.startswith("error: the file must be a CSV/text table") and "Traceback" not in proc.stderr
+    assert (
+        proc.stderr.startswith("error: the file must be a CSV/text table")
+        and "Traceback" not in proc.stderr
+    )
     assert proc.stdout == ""
 
 

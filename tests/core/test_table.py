@@ -477,6 +477,7 @@ def _wide_text(sep=",", dec=".", nl="\n", header=("year", "hake_t", "cod_t")) ->
     return nl.join(lines) + nl
 
 
+MONTHS = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"]
 EXPECTED_HAKE = np.array([1000 + 10.5 * k for k in range(20)])
 
 
@@ -541,6 +542,11 @@ def test_series_is_float_on_a_complete_period_index_with_gaps_as_nan():
         ),
         ([f"{1990 + k}-06-30" for k in range(20)], "annual", "Y-DEC", "1990"),
         ([str(1990 + k) for k in range(20)], "annual", "Y-DEC", "1990"),
+        ([f"01.{k % 12 + 1:02d}.{2000 + k // 12}" for k in range(40)], "monthly", "M", "2000-01"),
+        ([f"01/{k % 12 + 1:02d}/{2000 + k // 12}" for k in range(40)], "monthly", "M", "2000-01"),
+        ([f"{k % 12 + 1:02d}/15/{2000 + k // 12}" for k in range(40)], "monthly", "M", "2000-01"),
+        ([f"31/12/{1990 + k}" for k in range(20)], "annual", "Y-DEC", "1990"),
+        ([f"{2000 + k // 12}-{MONTHS[k % 12]}" for k in range(40)], "monthly", "M", "2000-01"),
     ],
     ids=[
         "YYYY-Qn",
@@ -550,6 +556,11 @@ def test_series_is_float_on_a_complete_period_index_with_gaps_as_nan():
         "quarterly-dates",
         "annual-dates",
         "years",
+        "DD.MM.YYYY",
+        "DD/MM/YYYY",
+        "MM/DD/YYYY",
+        "31/12/YYYY",
+        "YYYY-Mon",
     ],
 )
 def test_time_formats_give_the_frequency(cells, frequency, freqstr, start):
@@ -700,7 +711,12 @@ def test_damaged_xlsx_raises_input_error():
 def _german_export() -> bytes:
     # Invented figures; the shape is that of a cp1252 semicolon export with a title line, a
     # units row, thousands dots, decimal commas, a remarks column, a total row and CRLF.
-    lines = ["Anlandungen Nordküste – vorläufige Zahlen;;;;", ";;;;", "Jahr;Seehecht;Kabeljau;Bemerkung;", ";t;t;;"]
+    lines = [
+        "Anlandungen Nordküste – vorläufige Zahlen;;;;",
+        ";;;;",
+        "Jahr;Seehecht;Kabeljau;Bemerkung;",
+        ";t;t;;",
+    ]
     for k in range(24):
         hake = f"{1200 + 37.25 * k:,.2f}".replace(",", "X").replace(".", ",").replace("X", ".")
         cod = "" if k == 7 else f"{300 + k},5"
@@ -713,21 +729,32 @@ def test_a_messy_spreadsheet_export_reads_with_warnings_only():
     table = fc.read_table(_german_export(), name="anlandungen.csv")
     assert not table.errors
     assert set(table.series) == {"Seehecht", "Kabeljau"}
-    np.testing.assert_allclose(table.series["Seehecht"].to_numpy(), [1200 + 37.25 * k for k in range(24)])
+    np.testing.assert_allclose(
+        table.series["Seehecht"].to_numpy(), [1200 + 37.25 * k for k in range(24)]
+    )
     assert table.info["Kabeljau"].unit == "t" and table.info["Kabeljau"].missing == 1
     messages = " | ".join(p.summary() for p in table.problems)
-    for needle in ("Windows-1252", "row 1 above the header (row 3) was skipped", "row 4 looks like a units row",
-                   "row 29 was skipped: 'Summe' is not a time", "column 'Bemerkung' holds text",
-                   "row 12, 2008, column 'Kabeljau': empty or NA cells in row 12 (2008)"):
+    for needle in (
+        "Windows-1252",
+        "row 1 above the header (row 3) was skipped",
+        "row 4 looks like a units row",
+        "row 29 was skipped: 'Summe' is not a time",
+        "column 'Bemerkung' holds text",
+        "row 12, 2008, column 'Kabeljau': empty or NA cells in row 12 (2008)",
+    ):
         assert needle in messages
 
 
 def test_a_wide_file_with_a_status_column_and_a_duplicated_year_stays_wide():
-    rows = ["year,stock_status,hake_t"] + [f"{1990 + k},{'ok' if k % 3 else 'low'},{100 + k}" for k in range(20)]
+    rows = ["year,stock_status,hake_t"] + [
+        f"{1990 + k},{'ok' if k % 3 else 'low'},{100 + k}" for k in range(20)
+    ]
     rows.insert(6, "1994,ok,150")
     table = fc.read_table(("\n".join(rows) + "\n").encode(), name="status.csv")
     assert table.layout == "wide"
-    assert any(p.severity == "error" and p.time == "1994" and p.column == "hake_t" for p in table.problems)
+    assert any(
+        p.severity == "error" and p.time == "1994" and p.column == "hake_t" for p in table.problems
+    )
 
 
 def test_the_time_column_is_found_without_a_time_header():
@@ -737,16 +764,36 @@ def test_the_time_column_is_found_without_a_time_header():
 
 
 def test_year_and_quarter_columns_combine_into_a_quarterly_series():
-    text = "year,quarter,cpue\n" + "".join(f"{2000 + k // 4},Q{k % 4 + 1},{5 + (k * 3) % 7}\n" for k in range(24))
+    text = "year,quarter,cpue\n" + "".join(
+        f"{2000 + k // 4},Q{k % 4 + 1},{5 + (k * 3) % 7}\n" for k in range(24)
+    )
     table = fc.read_table(text.encode(), name="yq.csv")
     assert table.info["cpue"].frequency == "quarterly" and table.info["cpue"].end == "2005-Q4"
 
 
 def test_text_and_missing_cells_never_disappear_from_the_report():
     # Nothing is dropped silently: 20 rows in, 20 periods accounted for.
-    text = "year,hake_t\n" + "".join(f"{1990 + k},{'about 900' if k == 4 else 'NA' if k == 9 else 100 + k}\n" for k in range(20))
+    text = "year,hake_t\n" + "".join(
+        f"{1990 + k},{'about 900' if k == 4 else 'NA' if k == 9 else 100 + k}\n" for k in range(20)
+    )
     table = fc.read_table(text.encode(), name="acc.csv")
     info = table.info["hake_t"]
     assert info.observations + info.missing == 20
     rows = {p.row for p in info.problems}
     assert {6, 11} <= rows
+
+
+def test_ambiguous_day_month_dates_are_read_day_first_with_a_warning():
+    cells = ["01/02/2000", "02/03/2000", "03/04/2000", "04/05/2000"]
+    text = "date,squid_t\n" + "".join(f"{c},{k + 1}\n" for k, c in enumerate(cells))
+    table = fc.read_table(text.encode(), name="amb.csv")
+    assert any(
+        "read day first" in p.message and "'01/02/2000'" in p.message for p in table.warnings
+    )
+    assert table.info["squid_t"].start == "2000-02"
+
+
+def test_a_delimiter_hint_line_sets_the_delimiter():
+    text = "sep=;\nyear;hake_t\n" + "".join(f"{1990 + k};{k % 5 + 1},5\n" for k in range(16))
+    table = fc.read_table(text.encode(), name="hint.csv")
+    assert table.series["hake_t"].iloc[0] == pytest.approx(1.5)
