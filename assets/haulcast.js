@@ -16,7 +16,7 @@ window.dash_clientside = Object.assign({}, window.dash_clientside, {
           " is " + mb(bytes) + ". Split it, or export only the columns you need.";
         return [nu, {"message": msg, "t": Date.now()}, null];
       }
-      return [{"contents": contents, "filename": filename, "t": Date.now()}, null, null];
+      return [{"contents": contents, "filename": filename, "t": Date.now()}, nu, null];
     }
   }
 });

@@ -335,7 +335,7 @@ def sync_selection(
     store = get_store()
     trigger = ctx.triggered_id
     # On the page's first render Dash reports every input as triggered: only fill the pickers.
-    initial = len(ctx.triggered) > 1
+    initial = all(t.get("value") is None for t in ctx.triggered)
     if initial:
         trigger = None
     sel = update_selection(data)

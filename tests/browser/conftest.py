@@ -13,7 +13,8 @@ Fixtures for every browser test module:
 ``new_page``      factory: ``new_page(**context_kwargs) -> Page`` in a fresh context
 ``page``          one fresh page
 ``screenshot``    ``screenshot(page, name)`` saves ``test-artifacts/screens/NAME.png``
-``open_page``     ``open_page(page, "/intake")``: go there and wait for the page title
+``open_page``     ``open_page(page, "/intake")``: go there, wait for the page title and (unless
+                  ``settle=False``) for every callback to finish
 ``settle``        ``settle(page)``: wait until no Dash callback is in flight
 ``upload_file``   ``upload_file(page, name, data)``: drop a file on Intake's upload area
 
@@ -47,6 +48,18 @@ CHROMIUM_ARGS = [
 #: Milliseconds Playwright waits for a selector or an expectation.
 TIMEOUT_MS = 20_000
 PAGE_TITLES = {"/intake": "Intake", "/bench": "Model Bench", "/board": "Forecast Board"}
+
+
+def _set_expect_timeout() -> None:
+    """``expect(...)`` waits as long as locators do (its own default is 5 s: too short on a busy CI box)."""
+    try:
+        from playwright.sync_api import expect
+    except ImportError:  # pragma: no cover - playwright is in the test extra
+        return
+    expect.set_options(timeout=TIMEOUT_MS)
+
+
+_set_expect_timeout()
 
 
 def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
@@ -195,7 +208,7 @@ def wait_idle(page: Any) -> None:
 def open_page(app_url: str) -> Callable[..., Any]:
     """``open_page(page, "/intake")``: load a route and wait for its title and callbacks."""
 
-    def go(page: Any, path: str, *, title: str | None = None) -> Any:
+    def go(page: Any, path: str, *, title: str | None = None, settle: bool = True) -> Any:
         page.goto(app_url + path)
         expected = title or PAGE_TITLES.get(path.split("?")[0])
         heading = page.locator("h1.hc-page__title")
@@ -204,7 +217,8 @@ def open_page(app_url: str) -> Callable[..., Any]:
             from playwright.sync_api import expect
 
             expect(heading).to_have_text(expected)
-        wait_idle(page)
+        if settle:
+            wait_idle(page)
         return page
 
     return go
