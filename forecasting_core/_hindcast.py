@@ -313,7 +313,13 @@ def run_hindcast(
     if isinstance(horizon, bool) or not isinstance(horizon, int | np.integer) or not 1 <= horizon <= 30:
         raise InputError(f"horizon must be an integer from 1 to 30. Got {horizon!r} instead.")
     horizon = int(horizon)
-    models = [m for m in models if isinstance(m, Benchmark) or m.ok]
+    seen: set[str] = set()
+    kept = []
+    for m in models:  # rejected candidates and repeated labels are left out
+        if (isinstance(m, Benchmark) or m.ok) and m.label not in seen:
+            seen.add(m.label)
+            kept.append(m)
+    models = kept
     if not models:
         raise InputError("models must hold at least one accepted candidate or benchmark. Got none.")
     if not any(isinstance(m, Benchmark) and m.key == "naive" for m in models):

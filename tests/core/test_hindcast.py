@@ -205,8 +205,8 @@ def samples():
     [
         # log ARIMA(1,1,0) with drift and log ARIMA(0,1,1): wandering levels, so the long-run
         # mean is a poor forecast and the true process must rank above it.
-        ("landings", "hake_t", (1, 1, 0), None, True, 5, None),
-        ("landings", "whiting_t", (0, 1, 1), None, False, 5, None),
+        ("landings", "hake_t", (1, 1, 0), None, True, 3, 6),
+        ("landings", "whiting_t", (0, 1, 1), None, False, 3, 6),
         # log seasonal ARIMA(1,0,0)(0,1,1)[12]: the mean ignores the seasonal swing.
         # (Few origins: plumbing-sized; the seasonal gap is large.)
         ("squid", "squid", (1, 0, 0), (0, 1, 1, 12), False, 3, 3),
