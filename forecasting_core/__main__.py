@@ -81,11 +81,11 @@ def build_parser() -> argparse.ArgumentParser:
         default="auto",
         help="transform before fitting (default auto)",
     )
-    batch.add_argument("--workers", metavar="N", help="worker processes")
+    batch.add_argument("--workers", metavar="N", help="worker processes (default: the number of cores)")
     batch.add_argument(
         "--json", action="store_true", help="print a JSON list, one object per series"
     )
-    batch.add_argument("--out", metavar="DIR", help="write one result file per series into DIR")
+    batch.add_argument("--out", metavar="DIR", help="write forecasts.csv and models.json into DIR")
     return parser
 
 
