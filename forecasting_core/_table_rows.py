@@ -278,7 +278,7 @@ class RowsMixin:
                     Problem(
                         "error",
                         f"{rows_text(rows)} {'has a value' if len(rows) == 1 else 'have values'} for this series "
-                        f"that cannot be placed in time ({lost[rows[0]]}); fix the time cell so the value is not lost.",
+                        f"that could not be used ({lost[rows[0]]}); correct {'that row' if len(rows) == 1 else 'those rows'} so no value is lost.",
                         row=rows[0],
                         column=name,
                     )

@@ -248,8 +248,8 @@ def build_series(
         add(
             "warning",
             f"{len(absent)} {words if len(absent) > 1 else words[:-1]} inside {label(freq, first)}-{label(freq, last)} "
-            f"{'have' if len(absent) > 1 else 'has'} no row in the file: "
-            f"{times_text(freq, absent)}; kept as missing (gaps), not filled in.",
+            f"{'have' if len(absent) > 1 else 'has'} no usable row in the file: "
+            f"{times_text(freq, absent)}; kept as missing values, not filled in.",
             None,
             absent[0],
         )
