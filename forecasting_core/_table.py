@@ -340,6 +340,12 @@ class _Reader(RowsMixin):
                     f" Column {names[keyword[0]]!r} has a time-like header but none of its cells is a year or "
                     f"date (e.g. {short(example)!r})."
                 )
+            across = [j for j in keep if parse_time(names[j])[0] in ("Y", "Q", "M", "D")]
+            if len(across) >= max(2, len(keep) // 2):
+                looked += (
+                    f" The times run across the header ({names[across[0]]!r} ... {names[across[-1]]!r}):"
+                    " transpose the table so that each row is one period and each column one series."
+                )
             raise InputError(
                 "the file must have a time column (years such as 1998, months 1998-07, quarters "
                 f"1998-Q3 or dates 1998-07-01). Got columns {tried} instead.{looked}"

@@ -797,3 +797,12 @@ def test_a_delimiter_hint_line_sets_the_delimiter():
     text = "sep=;\nyear;hake_t\n" + "".join(f"{1990 + k};{k % 5 + 1},5\n" for k in range(16))
     table = fc.read_table(text.encode(), name="hint.csv")
     assert table.series["hake_t"].iloc[0] == pytest.approx(1.5)
+
+
+def test_a_transposed_table_is_refused_with_advice_to_transpose():
+    text = "stock," + ",".join(str(1990 + k) for k in range(20)) + "\n"
+    text += "hake," + ",".join(str(100 + k) for k in range(20)) + "\n"
+    with pytest.raises(
+        fc.InputError, match=r"times run across the header \('1990' ... '2009'\): transpose"
+    ):
+        fc.read_table(text.encode(), name="across.csv")
