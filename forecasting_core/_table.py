@@ -57,7 +57,6 @@ from forecasting_core._table_parse import (
     parse_number,
     parse_time,
     text_grid,
-    xlsx_grid,
 )
 from forecasting_core._table_rows import (
     MONTH_WORDS,
@@ -69,6 +68,7 @@ from forecasting_core._table_rows import (
     tokens,
 )
 from forecasting_core._table_series import MIN_OBSERVATIONS, rows_text
+from forecasting_core._table_xlsx import xlsx_grid
 
 __all__ = ["MAX_FILE_BYTES", "MIN_OBSERVATIONS", "header_unit", "read_table"]
 

@@ -12,7 +12,6 @@ import csv
 import io
 import math
 import re
-import warnings
 from collections import Counter
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
@@ -168,46 +167,6 @@ def text_grid(text: str) -> Grid:
     except csv.Error as exc:
         raise InputError(f"row {len(rows) + 1} cannot be read as CSV: {exc}.") from None
     return Grid(rows=rows, delimiter=delim, notes=notes)
-
-
-def xlsx_grid(data: bytes) -> Grid:
-    """Read the first sheet of an ``.xlsx`` workbook (values, not formulas)."""
-    try:
-        import openpyxl
-    except ImportError:  # pragma: no cover - openpyxl is a dependency
-        raise InputError(
-            "reading .xlsx needs the openpyxl package. Save the sheet as CSV instead."
-        ) from None
-    try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            book = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=True)
-            names = list(book.sheetnames)
-            if not names:
-                raise InputError("the workbook must contain a sheet. Got none instead.")
-            sheet = book[names[0]]
-            rows = [
-                [c.strip() if isinstance(c, str) else c for c in row]
-                for row in sheet.iter_rows(values_only=True)
-            ]
-            book.close()
-    except InputError:
-        raise
-    except Exception as exc:  # openpyxl raises many types on damaged files
-        raise InputError(
-            f"the file must be a readable .xlsx workbook. Got a damaged or unsupported one instead ({type(exc).__name__})."
-        ) from None
-    notes = []
-    if len(names) > 1:
-        others = ", ".join(repr(n) for n in names[1:])
-        notes.append(
-            Problem(
-                "warning",
-                f"the workbook has {len(names)} sheets; only the first, {names[0]!r}, was read "
-                f"(not {others}). Move the data to the first sheet to read another one.",
-            )
-        )
-    return Grid(rows=rows, delimiter=None, notes=notes)
 
 
 # ---------------------------------------------------------------------------------------------

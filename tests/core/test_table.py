@@ -806,3 +806,17 @@ def test_a_transposed_table_is_refused_with_advice_to_transpose():
         fc.InputError, match=r"times run across the header \('1990' ... '2009'\): transpose"
     ):
         fc.read_table(text.encode(), name="across.csv")
+
+
+def test_xlsx_formulas_without_saved_results_are_explained(tmp_path):
+    # openpyxl writes formulas without cached results, as a script-made workbook would.
+    rows = [["year", "hake_t", "cod_t", "total_t"]]
+    rows += [[1990 + k, 1000 + k, 400 + k, f"=B{k + 2}+C{k + 2}"] for k in range(20)]
+    table = fc.read_table(_workbook(tmp_path / "f.xlsx", {"Sheet1": rows}))
+    assert set(table.series) == {"hake_t", "cod_t"}
+    assert any(
+        p.row == 2
+        and "20 cells hold formulas without saved results" in p.message
+        and "'=B2+C2'" in p.message
+        for p in table.warnings
+    )
