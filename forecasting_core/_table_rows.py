@@ -377,6 +377,7 @@ class RowsMixin:
         rows_ok = self._exact_duplicates(
             rows_ok, key=lambda it: (it[1], tuple(it[2][j] for j in keys + unit_cols + nums))
         )
+        column_of: dict[str, int] = {}
         obs_by: dict[str, list[Obs]] = {}
         for row, ordinal, cells, p in rows_ok:
             key = " ".join(cell_text(cells[j]) for j in keys if not is_empty(cells[j])).strip()
@@ -391,6 +392,7 @@ class RowsMixin:
                 continue
             for j in nums:
                 name = key if len(nums) == 1 else f"{key} {names[j]}"
+                column_of.setdefault(name, j)
                 kind, value = p[j]
                 unit = (
                     cell_text(cells[ucol])
@@ -413,7 +415,7 @@ class RowsMixin:
         series: dict[str, pd.Series] = {}
         for name, obs in obs_by.items():
             self._order_warning(freq, [(o.row, o.ordinal) for o in obs], name)
-            default_unit = header_unit(self.raw_header[nums[0]]) if len(nums) == 1 else None
+            default_unit = header_unit(self.raw_header[column_of[name]])
             info, s = build_series(
                 name, obs, freq, unit=default_unit, decimal=self.decimal, problems=pre.get(name)
             )

@@ -820,3 +820,17 @@ def test_xlsx_formulas_without_saved_results_are_explained(tmp_path):
         and "'=B2+C2'" in p.message
         for p in table.warnings
     )
+
+
+def test_long_layout_with_two_value_columns_gives_one_series_per_name_and_column():
+    rows = ["stock,year,landings_t,effort_days"]
+    rows += [
+        f"{s},{1990 + k},{100 + k * (2 if s == 'a' else 3)},{50 + k % 7}"
+        for s in "ab"
+        for k in range(20)
+    ]
+    table = fc.read_table(("\n".join(rows) + "\n").encode(), name="two.csv")
+    assert table.layout == "long"
+    assert list(table.info) == ["a landings_t", "a effort_days", "b landings_t", "b effort_days"]
+    assert table.info["b effort_days"].unit == "days"
+    assert table.series["b landings_t"]["2009"] == 157
