@@ -191,12 +191,14 @@ def stationarity_figure(report: StationarityReport, *, height: int = 640) -> go.
     """
     levels = [d for d in (0, 1, 2) if d in report.differenced] or [0]
     ncols = len(levels)
-    seasonal = " (after a seasonal difference)" if report.seasonal_d else ""
+    seasonal = ", D = 1" if report.seasonal_d else ""
     titles = []
     for d in levels:
         name = _LEVEL_NAMES.get(d, f"{d} differences")
         titles.append(
-            f"<b>{name} \u2714 chosen (d = {d})</b>" if d == report.d else f"{name} (d = {d})"
+            f"<b>{name} \u2714 chosen (d = {d}{seasonal})</b>"
+            if d == report.d
+            else f"{name} (d = {d}{seasonal})"
         )
     fig = make_subplots(
         rows=3, cols=ncols, column_titles=titles, vertical_spacing=0.1, horizontal_spacing=0.06
@@ -268,7 +270,7 @@ def stationarity_figure(report: StationarityReport, *, height: int = 640) -> go.
                 "dtick": _lag_tick(len(lags)),
                 "title": {"text": "lag"} if row == 3 else None,
             }
-    for row, label in enumerate(["Values" + seasonal, "ACF", "PACF"], start=1):
+    for row, label in enumerate(["Values", "ACF", "PACF"], start=1):
         key = _axis("yaxis", row, 1, ncols)
         axes.setdefault(key, {})["title"] = {"text": label}
     fig.add_traces(traces, rows=rows, cols=cols)

@@ -179,15 +179,21 @@ def transform_note(choice: str, spec: fc.TransformSpec) -> list[Any]:
         html.Strong(f"{lead}{TRANSFORM_LABELS.get(spec.name, spec.name).lower()}{lam}.")
     ]
     reason = re.sub(
-        r"^\s*(auto(matic)?|chosen)\s*:\s*\w+\s*,?\s*", "", spec.reason or "", flags=re.IGNORECASE
+        r"^\s*automatic:\s*(log|no transform|box-?cox|none)\s*,?\s*",
+        "",
+        spec.reason or "",
+        flags=re.IGNORECASE,
     )
-    if reason and reason.lower() != "chosen by the user":
+    reason = re.sub(r"^\s*chosen by the user\s*;?\s*", "", reason, flags=re.IGNORECASE)
+    if reason:
         parts.append(" " + reason[0].upper() + reason[1:].rstrip(".") + ".")
     return parts
 
 
 def pvalue_text(t: fc.StationarityTest) -> str:
     bound = getattr(t, "pvalue_bound", None)
+    if t.pvalue is None or t.pvalue != t.pvalue:
+        return "\u2014"
     if t.pvalue == t.pvalue and t.pvalue < 0.001 and bound is None:
         return "< 0.001"
     text = fmt_number(t.pvalue, 2 if t.pvalue >= 0.01 else 1)
@@ -196,6 +202,15 @@ def pvalue_text(t: fc.StationarityTest) -> str:
     if bound == "at least":
         return f"\u2265 {text}"
     return text
+
+
+def _stat(value: float) -> str:
+    """A test statistic: 4 significant digits, scientific when huge, a dash when not computed."""
+    if value is None or value != value:
+        return "\u2014"
+    if abs(value) >= 1e5:
+        return f"{value:.3g}"
+    return fmt_number(value, 4) if abs(value) < 1000 else f"{value:,.1f}"
 
 
 def tests_view(report: fc.StationarityReport) -> Any:
@@ -211,7 +226,7 @@ def tests_view(report: fc.StationarityReport) -> Any:
                 "test": html.Strong(t.test),
                 "regression": t.regression,
                 "level": level,
-                "statistic": fmt_number(t.statistic, 4),
+                "statistic": _stat(t.statistic),
                 "pvalue": pvalue_text(t),
                 "critical": fmt_number(crit, 4) if crit is not None else "",
                 "lags": str(t.lags),

@@ -165,33 +165,35 @@ def layout(**_query: Any) -> html.Div:
                                 [
                                     html.Div(id="intake-read-alert"),
                                     html.Div(id="intake-read-summary"),
-                                    html.H3("Problems found"),
-                                    html.Div(id="intake-problems"),
+                                    html.Div(id="intake-series-table"),
                                 ]
                             )
                         ),
-                        lead="Every problem names the file row (the header is row 1) and the year it concerns.",
+                        html.Div(
+                            [
+                                html.Label(
+                                    "Series to work on",
+                                    htmlFor="intake-series",
+                                    className="hc-field__label",
+                                ),
+                                dcc.Dropdown(
+                                    id="intake-series", clearable=False, className="hc-dropdown"
+                                ),
+                            ],
+                            className="hc-field",
+                            style={"marginTop": "1rem", "maxWidth": "30rem"},
+                        ),
                         id="intake-read-section",
                     ),
                 ],
                 className="hc-grid hc-grid--2",
             ),
             section(
-                "Series in this file",
-                loading(html.Div(id="intake-series-table")),
-                html.Div(
-                    [
-                        html.Label(
-                            "Series to work on",
-                            htmlFor="intake-series",
-                            className="hc-field__label",
-                        ),
-                        dcc.Dropdown(id="intake-series", clearable=False, className="hc-dropdown"),
-                    ],
-                    className="hc-field",
-                    style={"marginTop": "1rem", "maxWidth": "28rem"},
-                ),
-                id="intake-series-section",
+                "Problems found",
+                loading(html.Div(id="intake-problems")),
+                lead="Each problem names the file row (the header is row 1), the year or period and "
+                "the column. Errors stop a series from being used; warnings do not.",
+                id="intake-problems-section",
             ),
             section(
                 "The series",
