@@ -406,29 +406,83 @@ def difference(z: np.ndarray, d: int, D: int = 0, m: int = 1) -> np.ndarray:
     return w
 
 
-def screen_grid(
-    w: np.ndarray,
-    orders: list[tuple[int, int, bool]],
-) -> dict[tuple[int, int, bool], FastFit]:
-    """Fit every (p, q, mean) of ``orders`` with warm starts from already fitted neighbours.
+Spec = tuple[tuple[int, int, int], "tuple[int, int, int, int] | None", bool]
 
-    Orders are visited by increasing p + q so each one starts from the optimum of (p-1, q)
-    (or else (p, q-1)) with the new coefficient at zero.
+
+def _pad(prev: FastFit, p: int, q: int, P: int, Q: int) -> np.ndarray:
+    """A neighbour's unconstrained optimum with zeros for the new lag terms."""
+    blocks, at = [], 0
+    for have, want in ((prev.p, p), (prev.q, q), (prev.P, P), (prev.Q, Q)):
+        blocks.extend(list(prev.x[at : at + have]) + [0.0] * (want - have))
+        at += have
+    if prev.mean:
+        blocks.append(prev.x[-1])
+    return np.array(blocks)
+
+
+def screen_specs(z: np.ndarray, specs: list[Spec]) -> dict[Spec, tuple[float, dict[str, float], bool]]:
+    """Screen ARIMA specifications on a transformed series with the compiled likelihood.
+
+    Parameters
+    ----------
+    z : numpy.ndarray
+        The transformed series in time order (NaN for missing periods).
+    specs : list of ((p, d, q), (P, D, Q, m) or None, constant)
+        The orders to screen.
+
+    Returns
+    -------
+    dict
+        spec -> (AICc, start parameters by statsmodels name, converged). AICc counts k and n
+        as statsmodels does (sigma2 included; n = observations after differencing). With
+        d + D > 0 a missing value also hides its neighbours' differences, so the screening
+        likelihood of a gappy differenced series is approximate: the exact refit decides.
     """
-    fits: dict[tuple[int, int, bool], FastFit] = {}
-    for p, q, mean in sorted(orders, key=lambda o: (o[0] + o[1], o[0], o[2])):
-        start: np.ndarray | None = None
-        for pp, qq in ((p - 1, q), (p, q - 1)):
-            prev = fits.get((pp, qq, mean))
+    with _one_blas_thread():
+        return _screen_specs(z, specs)
+
+
+def _one_blas_thread():
+    """L-BFGS-B calls BLAS on vectors of a few numbers; extra BLAS threads only spin-wait."""
+    from threadpoolctl import threadpool_limits
+
+    return threadpool_limits(limits=1, user_api="blas")
+
+
+def _screen_specs(z: np.ndarray, specs: list[Spec]) -> dict[Spec, tuple[float, dict[str, float], bool]]:
+    out: dict[Spec, tuple[float, dict[str, float], bool]] = {}
+    seen = int(np.isfinite(z).sum())
+    fits: dict[tuple, FastFit] = {}
+
+    def complexity(spec: Spec) -> tuple:
+        (p, d, q), seas, const = spec
+        P, D, Q, m = seas if seas else (0, 0, 0, 1)
+        return (d, D, m, const, p + q + P + Q, p, P, Q)
+
+    for spec in sorted(specs, key=complexity):
+        (p, d, q), seas, const = spec
+        P, D, Q, m = seas if seas else (0, 0, 0, 1)
+        key = (d, D, m, const)
+        w = difference(z, d, D, m)
+        start = None
+        for dp, dq, dP, dQ in ((1, 0, 0, 0), (0, 1, 0, 0), (0, 0, 1, 0), (0, 0, 0, 1)):
+            prev = fits.get((*key, p - dp, q - dq, P - dP, Q - dQ))
             if prev is not None and prev.converged:
-                ar = list(prev.x[:pp]) + [0.0] * (p - pp)
-                ma = list(prev.x[pp : pp + qq]) + [0.0] * (q - qq)
-                rest = [prev.x[-1]] if mean else []
-                start = np.array(ar + ma + rest)
+                start = _pad(prev, p, q, P, Q)
                 break
-        best = fit_arma(w, p, q, mean, start=start)
-        fits[(p, q, mean)] = best
-    return fits
+        fit = fit_arma(w, p, q, const, P=P, Q=Q, m=m, start=start)
+        fits[(*key, p, q, P, Q)] = fit
+        params: dict[str, float] = {}
+        if const:
+            lag = m if (D and not d) else 1
+            params["const" if d + D == 0 else "drift"] = fit.mu / lag
+        params.update({f"ar.L{i + 1}": float(v) for i, v in enumerate(fit.ar)})
+        params.update({f"ma.L{j + 1}": float(v) for j, v in enumerate(fit.ma)})
+        params.update({f"ar.S.L{m * (i + 1)}": float(v) for i, v in enumerate(fit.seasonal_ar)})
+        params.update({f"ma.S.L{m * (j + 1)}": float(v) for j, v in enumerate(fit.seasonal_ma)})
+        params["sigma2"] = fit.sigma2
+        out[spec] = (fit.aicc(seen - d - D * m), params, fit.converged)
+    return out
 
 
 def warm_up() -> None:
