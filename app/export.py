@@ -61,7 +61,9 @@ def _comment_line(text: str) -> str:
     """
     pieces = _one_line(text).replace('"', "'").split(",")
     safe = [pieces[0]] + [
-        (" '" + p.lstrip()) if p.lstrip().startswith(_FORMULA_START) and not _PLAIN_NEGATIVE.match(p.strip()) else p
+        (" '" + p.lstrip())
+        if p.lstrip().startswith(_FORMULA_START) and not _PLAIN_NEGATIVE.match(p.strip())
+        else p
         for p in pieces[1:]
     ]
     return "# " + ",".join(safe)
@@ -96,8 +98,11 @@ def export_meta(
         "unit": unit or "",
         "dataset": dataset_name or "",
         "data sha256": dataset_hash
-        or (str(comparison.provenance.get("data_sha256", comparison.provenance.get("sha256", "")))
-            if comparison is not None else ""),
+        or (
+            str(comparison.provenance.get("data_sha256", comparison.provenance.get("sha256", "")))
+            if comparison is not None
+            else ""
+        ),
         "model": forecast.model,
         "transform": forecast.transform.name
         + (f" (lambda {forecast.transform.lam:.3g})" if forecast.transform.lam is not None else ""),
@@ -130,8 +135,9 @@ def forecast_csv(
         CSV text (``\\r\\n`` line ends, as the csv module writes them).
     """
     buf = io.StringIO()
-    meta = export_meta(forecast, comparison, unit=unit, dataset_hash=dataset_hash,
-                       dataset_name=dataset_name)
+    meta = export_meta(
+        forecast, comparison, unit=unit, dataset_hash=dataset_hash, dataset_name=dataset_name
+    )
     header = ["Haulcast forecast"]
     header += [f"{key}: {value}" for key, value in meta.items() if value != ""]
     header += [f"caution: {c}" for c in (forecast.cautions or CAUTIONS)]
@@ -206,13 +212,17 @@ def _num(x: Any, digits: int = 4) -> str:
 
 def _table_html(frame: pd.DataFrame, left_cols: Sequence[str] = ()) -> str:
     head = "".join(
-        f'<th class="l">{html.escape(str(c))}</th>' if c in left_cols else f"<th>{html.escape(str(c))}</th>"
+        f'<th class="l">{html.escape(str(c))}</th>'
+        if c in left_cols
+        else f"<th>{html.escape(str(c))}</th>"
         for c in frame.columns
     )
     rows = []
     for _, r in frame.iterrows():
         cells = "".join(
-            _td(r[c], left=True) if c in left_cols else _td(_num(r[c]) if not isinstance(r[c], str) else r[c])
+            _td(r[c], left=True)
+            if c in left_cols
+            else _td(_num(r[c]) if not isinstance(r[c], str) else r[c])
             for c in frame.columns
         )
         rows.append(f"<tr>{cells}</tr>")
@@ -221,12 +231,16 @@ def _table_html(frame: pd.DataFrame, left_cols: Sequence[str] = ()) -> str:
 
 def _forecast_frame(forecast: Forecast) -> pd.DataFrame:
     t = forecast.table
-    out = pd.DataFrame({"period": [str(x) for x in t["time"]], "expected": t["mean"], "median": t["median"]})
+    out = pd.DataFrame(
+        {"period": [str(x) for x in t["time"]], "expected": t["mean"], "median": t["median"]}
+    )
     for lv in forecast.levels:
         out[f"{lv}% low"] = t[f"lo{lv}"]
         out[f"{lv}% high"] = t[f"hi{lv}"]
     if forecast.reference is not None:
-        out["chance below reference"] = [f"{100 * float(p):.1f}%" for p in t["prob_below_reference"]]
+        out["chance below reference"] = [
+            f"{100 * float(p):.1f}%" for p in t["prob_below_reference"]
+        ]
     return out
 
 
@@ -234,9 +248,15 @@ def _skill_frame(comparison: Comparison) -> pd.DataFrame | None:
     if comparison.hindcast is None:
         return None
     rows = [
-        {"model": s.model, "MAE": s.mae, "RMSE": s.rmse, "MASE": s.mase,
-         "80% coverage": f"{s.coverage80:.0f}%", "95% coverage": f"{s.coverage95:.0f}%",
-         "interval score (95%)": s.interval_score95}
+        {
+            "model": s.model,
+            "MAE": s.mae,
+            "RMSE": s.rmse,
+            "MASE": s.mase,
+            "80% coverage": f"{s.coverage80:.0f}%",
+            "95% coverage": f"{s.coverage95:.0f}%",
+            "interval score (95%)": s.interval_score95,
+        }
         for s in comparison.hindcast.scores
     ]
     return pd.DataFrame(rows)
@@ -244,7 +264,13 @@ def _skill_frame(comparison: Comparison) -> pd.DataFrame | None:
 
 def _candidates_frame(comparison: Comparison, limit: int = 10) -> pd.DataFrame:
     rows = [
-        {"model": c.label, "AICc": c.aicc, "delta AICc": c.delta_aicc, "weight": c.weight, "BIC": c.bic}
+        {
+            "model": c.label,
+            "AICc": c.aicc,
+            "delta AICc": c.delta_aicc,
+            "weight": c.weight,
+            "BIC": c.bic,
+        }
         for c in comparison.accepted[:limit]
     ]
     return pd.DataFrame(rows, columns=["model", "AICc", "delta AICc", "weight", "BIC"])
@@ -252,7 +278,8 @@ def _candidates_frame(comparison: Comparison, limit: int = 10) -> pd.DataFrame:
 
 def _meta_table(pairs: Mapping[str, Any]) -> str:
     rows = "".join(
-        f"<tr><th class='l'>{html.escape(str(k))}</th>{_td(v, left=True)}</tr>" for k, v in pairs.items()
+        f"<tr><th class='l'>{html.escape(str(k))}</th>{_td(v, left=True)}</tr>"
+        for k, v in pairs.items()
     )
     return f'<table class="meta"><tbody>{rows}</tbody></table>'
 
@@ -289,8 +316,12 @@ def report_html(
         A complete HTML document. Every user-supplied string is escaped.
     """
     e = html.escape
-    sentences = list(summary) if summary is not None else forecast_summary(forecast, comparison, unit=unit)
-    meta = export_meta(forecast, comparison, unit=unit, dataset_hash=dataset_hash, dataset_name=dataset_name)
+    sentences = (
+        list(summary) if summary is not None else forecast_summary(forecast, comparison, unit=unit)
+    )
+    meta = export_meta(
+        forecast, comparison, unit=unit, dataset_hash=dataset_hash, dataset_name=dataset_name
+    )
     parts = [
         "<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>",
         f"<title>Haulcast report: {e(forecast.series_name)}</title>",
@@ -306,8 +337,12 @@ def report_html(
     for heading, fig in figures:
         parts.append(f"<h2>{e(heading)}</h2>")
         parts.append(
-            fig.to_html(full_html=False, include_plotlyjs=first, config=graph_config(heading),
-                        default_width="100%")
+            fig.to_html(
+                full_html=False,
+                include_plotlyjs=first,
+                config=graph_config(heading),
+                default_width="100%",
+            )
         )
         first = False
     parts.append("<h2>Forecast table</h2>")
@@ -322,13 +357,19 @@ def report_html(
         parts.append("<h2>Best candidates by AICc</h2>")
         parts.append(_table_html(_candidates_frame(comparison), left_cols=("model",)))
         if comparison.diagnostics is not None and comparison.diagnostics.verdict:
-            parts.append(f"<p>Residual checks ({e(comparison.diagnostics.model)}): "
-                         f"{e(comparison.diagnostics.verdict)}</p>")
+            parts.append(
+                f"<p>Residual checks ({e(comparison.diagnostics.model)}): "
+                f"{e(comparison.diagnostics.verdict)}</p>"
+            )
     for w in forecast.warnings + (comparison.warnings if comparison is not None else ()):
         parts.append(f"<p><strong>Warning:</strong> {e(w)}</p>")
     parts.append("<h2>What produced this forecast</h2>")
     parts.append(_meta_table({k: v for k, v in meta.items() if v != ""}))
-    chosen = dict(settings) if settings is not None else (dict(comparison.settings) if comparison else {})
+    chosen = (
+        dict(settings)
+        if settings is not None
+        else (dict(comparison.settings) if comparison else {})
+    )
     if chosen:
         parts.append("<h2>Settings</h2>")
         parts.append(_meta_table({k: v for k, v in chosen.items()}))

@@ -42,6 +42,11 @@ BAND_ALPHA: dict[int, float] = {50: 0.42, 80: 0.26, 95: 0.14}
 FONT_FAMILY = "'Segoe UI', 'Noto Sans', 'DejaVu Sans', 'Helvetica Neue', Arial, sans-serif"
 
 
+def _fmt(x: float) -> str:
+    """A value for an annotation: ``12,340``, ``45.6``, ``0.123``."""
+    return f"{x:,.0f}" if abs(x) >= 100 else f"{x:.3g}"
+
+
 def _rgba(hex_color: str, alpha: float) -> str:
     h = hex_color.lstrip("#")
     r, g, b = (int(h[i : i + 2], 16) for i in (0, 2, 4))
@@ -119,7 +124,9 @@ def _x_hover(frequency: str) -> str:
     )
 
 
-def _style(fig: go.Figure, *, title: str | None, y_title: str, frequency: str, height: int) -> go.Figure:
+def _style(
+    fig: go.Figure, *, title: str | None, y_title: str, frequency: str, height: int
+) -> go.Figure:
     fig.update_layout(
         title={"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 15}} if title else None,
         template="plotly_white",
@@ -129,15 +136,36 @@ def _style(fig: go.Figure, *, title: str | None, y_title: str, frequency: str, h
         paper_bgcolor="rgba(0,0,0,0)",
         plot_bgcolor="#ffffff",
         hovermode="x unified",
-        legend={"orientation": "h", "yanchor": "bottom", "y": 1.0, "xanchor": "right", "x": 1.0,
-                "bgcolor": "rgba(255,255,255,0.6)"},
+        legend={
+            "orientation": "h",
+            "yanchor": "bottom",
+            "y": 1.0,
+            "xanchor": "right",
+            "x": 1.0,
+            "bgcolor": "rgba(255,255,255,0.6)",
+        },
     )
-    fig.update_yaxes(title_text=y_title, gridcolor=COLORS["grid"], zeroline=False,
-                     separatethousands=True)
+    fig.update_yaxes(
+        title_text=y_title, gridcolor=COLORS["grid"], zeroline=False, separatethousands=True
+    )
     if frequency == "annual":
         fig.update_xaxes(tickformat="d", gridcolor=COLORS["grid"], title_text="Year")
     else:
         fig.update_xaxes(type="date", gridcolor=COLORS["grid"], title_text=None)
+    return fig
+
+
+def blank_figure(height: int = 260) -> go.Figure:
+    """An empty placeholder (no axes) shown until a result arrives."""
+    fig = go.Figure()
+    fig.update_layout(
+        height=height,
+        paper_bgcolor="rgba(0,0,0,0)",
+        plot_bgcolor="rgba(0,0,0,0)",
+        margin={"l": 0, "r": 0, "t": 0, "b": 0},
+    )
+    fig.update_xaxes(visible=False)
+    fig.update_yaxes(visible=False)
     return fig
 
 
@@ -239,16 +267,26 @@ def fan_chart(
         xs = anchor_x + fx
         fig.add_trace(
             go.Scatter(
-                x=xs, y=lo, mode="lines", line={"width": 0, "color": COLORS["model"]},
-                name=f"{level}% band (lower)", legendgroup=f"band{level}", showlegend=False,
+                x=xs,
+                y=lo,
+                mode="lines",
+                line={"width": 0, "color": COLORS["model"]},
+                name=f"{level}% band (lower)",
+                legendgroup=f"band{level}",
+                showlegend=False,
                 hovertemplate=f"{level}% low %{{y:,.4~g}}<extra></extra>",
             )
         )
         fig.add_trace(
             go.Scatter(
-                x=xs, y=hi, mode="lines", line={"width": 0, "color": COLORS["model"]},
-                fill="tonexty", fillcolor=_rgba(COLORS["model"], _band_alpha(level)),
-                name=f"{level}% band", legendgroup=f"band{level}",
+                x=xs,
+                y=hi,
+                mode="lines",
+                line={"width": 0, "color": COLORS["model"]},
+                fill="tonexty",
+                fillcolor=_rgba(COLORS["model"], _band_alpha(level)),
+                name=f"{level}% band",
+                legendgroup=f"band{level}",
                 hovertemplate=f"{level}% high %{{y:,.4~g}}<extra></extra>",
             )
         )
@@ -278,12 +316,17 @@ def fan_chart(
         fig.add_hline(
             y=float(ref),
             line={"color": COLORS["reference"], "width": 2, "dash": "dash"},
-            annotation_text=f"reference level {float(ref):,.4g}",
+            annotation_text=f"reference level {_fmt(float(ref))}",
             annotation_position="bottom left",
             annotation_font={"color": COLORS["reference"]},
         )
-    _style(fig, title=title, y_title=value_axis_title(forecast.series_name, unit),
-           frequency=frequency, height=height)
+    _style(
+        fig,
+        title=title,
+        y_title=value_axis_title(forecast.series_name, unit),
+        frequency=frequency,
+        height=height,
+    )
     return fig
 
 
@@ -298,9 +341,15 @@ def prob_below_figure(forecast: Forecast, *, height: int = 240) -> go.Figure:
     table = forecast.table
     fig = go.Figure()
     if forecast.reference is None:
-        fig.add_annotation(text="Enter a reference level to see the chance of falling below it.",
-                           showarrow=False, x=0.5, y=0.5, xref="paper", yref="paper",
-                           font={"color": COLORS["muted"]})
+        fig.add_annotation(
+            text="Enter a reference level to see the chance of falling below it.",
+            showarrow=False,
+            x=0.5,
+            y=0.5,
+            xref="paper",
+            yref="paper",
+            font={"color": COLORS["muted"]},
+        )
         fig.update_xaxes(visible=False)
         fig.update_yaxes(visible=False)
     else:
@@ -376,9 +425,13 @@ def hindcast_figure(
     fig = go.Figure()
     fig.add_trace(
         go.Scatter(
-            x=periods_x(hist.index, frequency), y=hist.astype(float).to_numpy(), name="Observed",
-            mode="lines+markers", line={"color": COLORS["history"], "width": 2},
-            marker={"size": 5}, hovertemplate="observed %{y:,.4~g}<extra></extra>",
+            x=periods_x(hist.index, frequency),
+            y=hist.astype(float).to_numpy(),
+            name="Observed",
+            mode="lines+markers",
+            line={"color": COLORS["history"], "width": 2},
+            marker={"size": 5},
+            hovertemplate="observed %{y:,.4~g}<extra></extra>",
         )
     )
     model_col = _pick(errors, ["model"])
@@ -402,16 +455,25 @@ def hindcast_figure(
                     xs, ys = [ox, *xs], [history_lookup[ox], *ys]
                 fig.add_trace(
                     go.Scatter(
-                        x=xs, y=ys, mode="lines+markers",
+                        x=xs,
+                        y=ys,
+                        mode="lines+markers",
                         name=who if i == 0 else f"from {origin}",
-                        legendgroup=f"hc-{who}", showlegend=i == 0, visible=visible,
+                        legendgroup=f"hc-{who}",
+                        showlegend=i == 0,
+                        visible=visible,
                         line={"color": color, "width": width, "dash": dash},
                         marker={"size": 4},
                         hovertemplate=f"{who} from {origin}: %{{y:,.4~g}}<extra></extra>",
                     )
                 )
-    _style(fig, title=None, y_title=value_axis_title(series_name, unit), frequency=frequency,
-           height=height)
+    _style(
+        fig,
+        title=None,
+        y_title=value_axis_title(series_name, unit),
+        frequency=frequency,
+        height=height,
+    )
     fig.update_layout(hovermode="closest")
     return fig
 
@@ -422,9 +484,14 @@ def skill_figure(hindcast: Hindcast, *, height: int = 260) -> go.Figure:
     colors = [COLORS["model"] if s.kind == "arima" else COLORS["benchmark"] for s in scores]
     fig = go.Figure(
         go.Bar(
-            x=[s.mase for s in scores], y=[s.model for s in scores], orientation="h",
-            marker={"color": colors}, name="MASE",
-            text=[f"{s.mase:.2f}" for s in scores], textposition="outside", cliponaxis=False,
+            x=[s.mase for s in scores],
+            y=[s.model for s in scores],
+            orientation="h",
+            marker={"color": colors},
+            name="MASE",
+            text=[f"{s.mase:.2f}" for s in scores],
+            textposition="outside",
+            cliponaxis=False,
             hovertemplate="%{y}: MASE %{x:.3f}<extra></extra>",
         )
     )
@@ -443,8 +510,12 @@ def residuals_figure(report: ResidualReport, *, height: int = 260) -> go.Figure:
     xs = periods_x(res.index, frequency)
     fig = go.Figure(
         go.Scatter(
-            x=xs, y=res.to_numpy(), mode="lines+markers", name="standardized residual",
-            line={"color": COLORS["model"], "width": 1.2}, marker={"size": 4},
+            x=xs,
+            y=res.to_numpy(),
+            mode="lines+markers",
+            name="standardized residual",
+            line={"color": COLORS["model"], "width": 1.2},
+            marker={"size": 4},
             hovertemplate="%{y:.2f}<extra></extra>",
         )
     )
@@ -453,11 +524,19 @@ def residuals_figure(report: ResidualReport, *, height: int = 260) -> go.Figure:
     fig.add_hline(y=0, line={"color": COLORS["history"], "width": 1})
     for period, value in report.largest[:3]:
         if abs(value) >= 1.96:
-            fig.add_annotation(x=period_x(period, frequency), y=value, text=str(period),
-                               showarrow=True, arrowhead=0, ax=0, ay=-18 if value > 0 else 18,
-                               font={"size": 11, "color": COLORS["muted"]})
-    _style(fig, title="Residuals over time", y_title="standardized", frequency=frequency,
-           height=height)
+            fig.add_annotation(
+                x=period_x(period, frequency),
+                y=value,
+                text=str(period),
+                showarrow=True,
+                arrowhead=0,
+                ax=0,
+                ay=-18 if value > 0 else 18,
+                font={"size": 11, "color": COLORS["muted"]},
+            )
+    _style(
+        fig, title="Residuals over time", y_title="standardized", frequency=frequency, height=height
+    )
     fig.update_layout(showlegend=False, hovermode="closest")
     fig.update_xaxes(title_text=None)
     return fig
@@ -468,10 +547,18 @@ def residual_acf_figure(report: ResidualReport, *, height: int = 260) -> go.Figu
     lags = list(range(1, len(report.acf) + 1))
     acf = [float(a) for a in report.acf]
     fig = go.Figure(
-        go.Bar(x=lags, y=acf, name="residual ACF", width=0.35,
-               marker={"color": [COLORS["reference"] if abs(a) > report.limit else COLORS["model"]
-                                 for a in acf]},
-               hovertemplate="lag %{x}: %{y:.3f}<extra></extra>")
+        go.Bar(
+            x=lags,
+            y=acf,
+            name="residual ACF",
+            width=0.35,
+            marker={
+                "color": [
+                    COLORS["reference"] if abs(a) > report.limit else COLORS["model"] for a in acf
+                ]
+            },
+            hovertemplate="lag %{x}: %{y:.3f}<extra></extra>",
+        )
     )
     if not math.isnan(report.limit):
         for y in (-report.limit, report.limit):
@@ -489,14 +576,27 @@ def qq_figure(report: ResidualReport, *, height: int = 260) -> go.Figure:
     fig = go.Figure()
     if len(res) >= 3:
         (theoretical, ordered), (slope, intercept, _r) = stats.probplot(res, dist="norm")
-        fig.add_trace(go.Scatter(x=theoretical, y=ordered, mode="markers", name="residuals",
-                                 marker={"color": COLORS["model"], "size": 5},
-                                 hovertemplate="normal %{x:.2f}, residual %{y:.2f}<extra></extra>"))
+        fig.add_trace(
+            go.Scatter(
+                x=theoretical,
+                y=ordered,
+                mode="markers",
+                name="residuals",
+                marker={"color": COLORS["model"], "size": 5},
+                hovertemplate="normal %{x:.2f}, residual %{y:.2f}<extra></extra>",
+            )
+        )
         line_x = np.array([theoretical.min(), theoretical.max()])
-        fig.add_trace(go.Scatter(x=line_x, y=intercept + slope * line_x, mode="lines",
-                                 name="normal line",
-                                 line={"color": COLORS["history"], "width": 1, "dash": "dash"},
-                                 hoverinfo="skip"))
+        fig.add_trace(
+            go.Scatter(
+                x=line_x,
+                y=intercept + slope * line_x,
+                mode="lines",
+                name="normal line",
+                line={"color": COLORS["history"], "width": 1, "dash": "dash"},
+                hoverinfo="skip",
+            )
+        )
     _style(fig, title="Normal Q-Q", y_title="residual quantile", frequency="annual", height=height)
     fig.update_xaxes(title_text="normal quantile", tickformat=None)
     fig.update_yaxes(separatethousands=False)

@@ -65,18 +65,22 @@ def hindcast_sentence(comparison: Comparison | None, model: str) -> str:
     n = len(comparison.hindcast.origins)
     if mine is None:
         return f"{model} was not among the models replayed on past years."
-    if naive is None or not naive.mae or math.isnan(naive.mae) or math.isnan(mine.mae):
+    if naive is None or math.isnan(naive.mase) or math.isnan(mine.mase) or not naive.mase:
         return f"Replayed on {n} past years, its forecasts missed by {mine.mae:,.3g} on average."
-    change = 1.0 - mine.mae / naive.mae
+    # MASE ratio: the same measure as the hindcast verdict on the Model Bench
+    change = 1.0 - mine.mase / naive.mase
     years = f"the last {n} years" if n != 1 else "the last year"
     if abs(change) < 0.02:
-        return (f"Replayed on {years}, it did about as well as simply repeating the last "
-                "observed value.")
+        return f"Replayed on {years}, it did about as well as simply repeating the last observed value."
     if change > 0:
-        return (f"Replayed on {years}, its errors were {100 * change:.0f}% smaller than simply "
-                "repeating the last observed value.")
-    return (f"Replayed on {years}, its errors were {100 * -change:.0f}% larger than simply "
-            "repeating the last observed value, so treat it with care.")
+        return (
+            f"Replayed on {years}, its errors were {100 * change:.0f}% smaller than simply "
+            "repeating the last observed value."
+        )
+    return (
+        f"Replayed on {years}, its errors were {100 * -change:.0f}% larger than simply "
+        "repeating the last observed value, so treat it with care."
+    )
 
 
 def forecast_summary(
@@ -106,18 +110,25 @@ def forecast_summary(
     first = table.iloc[0]
     t1 = str(first["time"])
     name = forecast.series_name
-    out = [f"For {t1}, the expected {name} is {fmt_value(float(first['mean']), unit)} "
-           f"(median {fmt_value(float(first['median']), unit)})."]
+    out = [
+        f"For {t1}, the expected {name} is {fmt_value(float(first['mean']), unit)} "
+        f"(median {fmt_value(float(first['median']), unit)})."
+    ]
     if "lo80" in table.columns:
-        out.append(f"There is an 80% chance that it falls between "
-                   f"{fmt_value(float(first['lo80']), unit)} and "
-                   f"{fmt_value(float(first['hi80']), unit)}.")
+        out.append(
+            f"There is an 80% chance that it falls between "
+            f"{fmt_value(float(first['lo80']), unit)} and "
+            f"{fmt_value(float(first['hi80']), unit)}."
+        )
     if len(table) > 1:
         last = table.iloc[-1]
-        out.append(f"By {last['time']} the expected value is {fmt_value(float(last['mean']), unit)}, "
-                   f"and the 80% range widens to {fmt_value(float(last['lo80']), unit)} to "
-                   f"{fmt_value(float(last['hi80']), unit)}." if "lo80" in table.columns else
-                   f"By {last['time']} the expected value is {fmt_value(float(last['mean']), unit)}.")
+        out.append(
+            f"By {last['time']} the expected value is {fmt_value(float(last['mean']), unit)}, "
+            f"and the 80% range widens to {fmt_value(float(last['lo80']), unit)} to "
+            f"{fmt_value(float(last['hi80']), unit)}."
+            if "lo80" in table.columns
+            else f"By {last['time']} the expected value is {fmt_value(float(last['mean']), unit)}."
+        )
     if forecast.reference is not None:
         probs = [float(p) for p in table["prob_below_reference"]]
         ref = fmt_value(float(forecast.reference), unit)
@@ -125,5 +136,7 @@ def forecast_summary(
         if len(probs) > 1:
             text += f" and {fmt_chance(probs[-1])} by {table.iloc[-1]['time']}"
         out.append(text + ".")
-    out.append(f"The forecast comes from {forecast.model}. {hindcast_sentence(comparison, forecast.model)}")
+    out.append(
+        f"The forecast comes from {forecast.model}. {hindcast_sentence(comparison, forecast.model)}"
+    )
     return out

@@ -89,13 +89,24 @@ def test_csv_reads_back_as_the_forecast_table(forecast):
     text = forecast_csv(forecast, unit="10^8 m^3")
     back = pd.read_csv(io.StringIO(text), comment="#")
     assert list(back.columns) == [
-        "time", "step", "mean", "median", "lo50", "hi50", "lo80", "hi80", "lo95", "hi95",
+        "time",
+        "step",
+        "mean",
+        "median",
+        "lo50",
+        "hi50",
+        "lo80",
+        "hi80",
+        "lo95",
+        "hi95",
         "prob_below_reference",
     ]
     assert len(back) == 5
     for col in ("mean", "median", "lo80", "hi95"):
         pd.testing.assert_series_equal(
-            back[col], forecast.table[col].astype(float).reset_index(drop=True), check_names=False,
+            back[col],
+            forecast.table[col].astype(float).reset_index(drop=True),
+            check_names=False,
             rtol=1e-5,
         )
     assert back["prob_below_reference"].between(0, 1).all()
@@ -153,8 +164,9 @@ def test_report_records_cautions_hash_versions_and_summary(report, forecast):
 def test_report_escapes_a_script_in_the_series_name(forecast, comparison, nile):
     hostile = "<script>alert('x')</script>"
     fcst = _renamed(forecast, hostile)
-    page = report_html(fcst, comparison, figures=[("Forecast", figures.fan_chart(fcst, nile))],
-                       unit="<b>t</b>")
+    page = report_html(
+        fcst, comparison, figures=[("Forecast", figures.fan_chart(fcst, nile))], unit="<b>t</b>"
+    )
     assert "<script>alert" not in page
     assert "&lt;script&gt;alert(&#x27;x&#x27;)&lt;/script&gt;" in page
     assert "<b>t</b>" not in page

@@ -137,4 +137,8 @@ def test_period_positions(value, frequency, expected):
 def test_graph_config_offers_png_without_the_logo():
     config = figures.graph_config("fan chart: hake/2026")
     assert config["displaylogo"] is False
-    assert config["toImageButtonOptions"] == {"format": "png", "filename": "fan_chart_hake_2026", "scale": 2}
+    assert config["toImageButtonOptions"] == {
+        "format": "png",
+        "filename": "fan_chart_hake_2026",
+        "scale": 2,
+    }

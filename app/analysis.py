@@ -1,0 +1,164 @@
+"""From a browser session's selection to core results: settings, comparison, forecast.
+
+Shared by the Model Bench and the Forecast Board so that both ask the memoized comparison
+(:func:`app.cache.get_comparison`) exactly the same question. Nothing here draws anything.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from typing import Any
+
+import forecasting_core as fc
+from app.cache import get_comparison, settings_json
+from app.state import TRANSFORMS, resolve_selection
+
+#: Model Bench settings a new session starts from (kept in ``hc-selection["bench"]``).
+DEFAULT_BENCH: dict[str, Any] = {
+    "search": "exhaustive",
+    "max_p": 5,
+    "max_q": 5,
+    "seasonal": True,
+    "constant": "auto",
+    "origins": None,
+    "horizon": 5,
+}
+SEARCH_LABELS = {"exhaustive": "Every order (exhaustive)", "stepwise": "Stepwise (faster)"}
+CONSTANT_LABELS = {"auto": "Try both", "on": "Always", "off": "Never"}
+#: Band levels (percent) everywhere on the bench and the board.
+LEVELS = (50, 80, 95)
+
+
+def _int_setting(
+    name: str, value: Any, lo: int, hi: int, *, allow_none: bool = False
+) -> int | None:
+    if value is None or value == "":
+        if allow_none:
+            return None
+        raise fc.InputError(f"{name} must be an integer from {lo} to {hi}. Got nothing instead.")
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        number = math.nan
+    if not number.is_integer() or not lo <= number <= hi:
+        raise fc.InputError(f"{name} must be an integer from {lo} to {hi}. Got {value!r} instead.")
+    return int(number)
+
+
+def bench_settings(raw: Mapping[str, Any] | None) -> dict[str, Any]:
+    """The Model Bench settings with defaults filled in and every value checked.
+
+    Parameters
+    ----------
+    raw : Mapping, optional
+        ``hc-selection["bench"]`` (or the page's controls).
+
+    Raises
+    ------
+    forecasting_core.InputError
+        A value outside what the core accepts, named as the page labels it.
+    """
+    out = {**DEFAULT_BENCH, **{k: v for k, v in dict(raw or {}).items() if k in DEFAULT_BENCH}}
+    if out["search"] not in SEARCH_LABELS:
+        raise fc.InputError(
+            f"search must be exhaustive or stepwise. Got {out['search']!r} instead."
+        )
+    if out["constant"] not in CONSTANT_LABELS:
+        raise fc.InputError(f"constant must be auto, on or off. Got {out['constant']!r} instead.")
+    out["max_p"] = _int_setting("Largest AR order p", out["max_p"], 0, 5)
+    out["max_q"] = _int_setting("Largest MA order q", out["max_q"], 0, 5)
+    out["horizon"] = _int_setting("Horizon", out["horizon"], 1, 30)
+    out["origins"] = _int_setting("Hindcast origins", out["origins"], 1, 40, allow_none=True)
+    out["seasonal"] = bool(out["seasonal"])
+    return out
+
+
+def compare_kwargs(bench: Mapping[str, Any], transform: str) -> dict[str, Any]:
+    """Keyword arguments of :func:`forecasting_core.compare_models` for these settings."""
+    b = bench_settings(bench)
+    return {
+        "horizon": b["horizon"],
+        "transform": transform if transform in TRANSFORMS else "auto",
+        "search": b["search"],
+        "max_p": b["max_p"],
+        "max_q": b["max_q"],
+        # on: the core's default (seasonal terms for monthly and quarterly data only)
+        "seasonal": None if b["seasonal"] else False,
+        "constant": {"auto": None, "on": True, "off": False}[b["constant"]],
+        "hindcast_origins": b["origins"],
+    }
+
+
+def comparison_for(sel: Mapping[str, Any]) -> fc.Comparison:
+    """The memoized comparison for a resolved selection (see :func:`app.state.resolve_selection`)."""
+    if not sel.get("dataset_id") or not sel.get("series"):
+        raise fc.InputError(
+            "a dataset with at least one usable series must be chosen on Intake first."
+        )
+    kwargs = compare_kwargs(sel.get("bench") or {}, sel.get("transform") or "auto")
+    return get_comparison(sel["dataset_id"], sel["series"], settings_json(kwargs))
+
+
+def chosen_candidate(comparison: fc.Comparison, label: str | None) -> fc.Candidate:
+    """The picked candidate when it is an accepted one of this comparison, else the best."""
+    if label:
+        for c in comparison.accepted:
+            if c.label == label:
+                return c
+    return comparison.best
+
+
+def parse_reference(value: Any) -> float | None:
+    """The reference level typed by the user (None when blank).
+
+    Raises
+    ------
+    forecasting_core.InputError
+        When it is not a finite number.
+    """
+    if value is None or (isinstance(value, str) and not value.strip()):
+        return None
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        number = math.nan
+    if not math.isfinite(number):
+        raise fc.InputError(f"the reference level must be a number. Got {value!r} instead.")
+    return number
+
+
+def board_state(data: Mapping[str, Any] | None, reference: Any) -> dict[str, Any]:
+    """Everything the board shows, from the session's selection and the reference level.
+
+    Returns
+    -------
+    dict
+        ``selection``, ``comparison``, ``candidate``, ``forecast``, ``unit``,
+        ``dataset_name`` and ``picked`` (True when the model was picked on the bench).
+    """
+    from app.store import get_store
+
+    sel = resolve_selection(data)
+    comparison = comparison_for(sel)
+    candidate = chosen_candidate(comparison, sel.get("model"))
+    if not candidate.ok:
+        raise fc.InputError(
+            f"every candidate model was rejected for {comparison.series_name}, so no forecast can be "
+            "made. Change the settings on the Model Bench."
+        )
+    horizon = bench_settings(sel.get("bench"))["horizon"]
+    forecast = fc.make_forecast(
+        candidate, horizon=horizon, levels=LEVELS, reference=parse_reference(reference)
+    )
+    store = get_store()
+    info = store.load_table(sel["dataset_id"]).info.get(sel["series"])
+    return {
+        "selection": sel,
+        "comparison": comparison,
+        "candidate": candidate,
+        "forecast": forecast,
+        "unit": info.unit if info is not None else None,
+        "dataset_name": store.meta(sel["dataset_id"]).filename,
+        "picked": candidate.label != comparison.best.label,
+    }

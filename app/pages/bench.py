@@ -1,0 +1,500 @@
+"""Model Bench (/bench): order search, benchmarks, hindcast skill and residual checks.
+
+The page keeps its settings in ``hc-selection["bench"]`` and the picked candidate in
+``hc-selection["model"]``; the comparison itself is memoized on the server
+(:func:`app.cache.get_comparison`), so the Forecast Board reuses it.
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Mapping
+from typing import Any
+
+import dash
+import plotly.graph_objects as go
+from dash import Input, Output, State, callback, dcc, html, no_update
+from dash.exceptions import PreventUpdate
+
+import forecasting_core as fc
+from app import figures, tables
+from app.analysis import (
+    CONSTANT_LABELS,
+    DEFAULT_BENCH,
+    SEARCH_LABELS,
+    bench_settings,
+    chosen_candidate,
+    comparison_for,
+)
+from app.state import (
+    SELECTION_ID,
+    TRANSFORM_LABELS,
+    TRANSFORMS,
+    resolve_selection,
+    update_selection,
+)
+from app.ui import guarded, page_header, section
+
+dash.register_page(
+    __name__, path="/bench", name="Model Bench", order=2, title="Model Bench \u00b7 Haulcast"
+)
+
+
+# ---------------------------------------------------------------------------------------------
+# Layout
+# ---------------------------------------------------------------------------------------------
+
+
+def _field(label: str, control: Any, hint: str | None = None) -> html.Div:
+    parts = [
+        html.Label(label, className="hc-field__label", htmlFor=getattr(control, "id", None)),
+        control,
+    ]
+    if hint:
+        parts.append(html.Span(hint, className="hc-field__hint"))
+    return html.Div(parts, className="hc-field")
+
+
+def _settings_panel() -> html.Section:
+    number = {"type": "number", "step": 1, "debounce": True, "className": "hc-input"}
+    return section(
+        "Settings",
+        _field(
+            "Search",
+            dcc.RadioItems(
+                id="bench-search",
+                options=[{"label": v, "value": k} for k, v in SEARCH_LABELS.items()],
+                value="exhaustive",
+                className="hc-choices",
+            ),
+        ),
+        html.Div(
+            [
+                _field(
+                    "Largest AR order p",
+                    dcc.Input(id="bench-max-p", min=0, max=5, value=5, **number),
+                ),
+                _field(
+                    "Largest MA order q",
+                    dcc.Input(id="bench-max-q", min=0, max=5, value=5, **number),
+                ),
+            ],
+            className="hc-row bench-pair",
+        ),
+        _field(
+            "Seasonal part",
+            dcc.Checklist(
+                id="bench-seasonal",
+                options=[{"label": "Search seasonal terms", "value": "on"}],
+                value=["on"],
+                className="hc-choices",
+            ),
+            hint="Monthly and quarterly data only.",
+        ),
+        _field(
+            "Transform",
+            dcc.Dropdown(
+                id="bench-transform",
+                options=[{"label": TRANSFORM_LABELS[t], "value": t} for t in TRANSFORMS],
+                value="auto",
+                clearable=False,
+                className="hc-dropdown",
+            ),
+        ),
+        _field(
+            "Constant or drift",
+            dcc.RadioItems(
+                id="bench-constant",
+                options=[{"label": v, "value": k} for k, v in CONSTANT_LABELS.items()],
+                value="auto",
+                className="hc-choices bench-inline",
+            ),
+        ),
+        html.Div(
+            [
+                _field(
+                    "Hindcast origins",
+                    dcc.Input(
+                        id="bench-origins", min=1, max=40, value=None, placeholder="auto", **number
+                    ),
+                    hint="Blank: the last min(10, n/4) years.",
+                ),
+                _field(
+                    "Horizon",
+                    dcc.Input(id="bench-horizon", min=1, max=30, value=5, **number),
+                    hint="Steps ahead.",
+                ),
+            ],
+            className="hc-row bench-pair",
+        ),
+        html.Button("Run comparison", id="bench-run", n_clicks=0, className="hc-button bench-run"),
+        html.P(id="bench-timing", className="hc-figure-note"),
+        className="bench-settings",
+    )
+
+
+def _progress() -> html.Div:
+    return html.Div(
+        [
+            html.Div(html.Div(className="bench-progress__bar"), className="bench-progress__track"),
+            html.P(
+                "Fitting every candidate order, then replaying past years (hindcast)\u2026",
+                className="bench-progress__text",
+            ),
+        ],
+        className="bench-progress",
+        role="progressbar",
+        **{"aria-label": "Comparison running"},
+    )
+
+
+def _graph(graph_id: str, name: str, height: int = 260) -> dcc.Graph:
+    return dcc.Graph(
+        id=graph_id,
+        config=figures.graph_config(name),
+        className="hc-graph",
+        style={"height": f"{height}px"},
+        figure=figures.blank_figure(height),
+    )
+
+
+def layout(**_query: Any) -> html.Div:
+    """The Model Bench page."""
+    results = html.Div(
+        [
+            html.Div(id="bench-status", className="bench-status"),
+            html.Div(
+                [
+                    section(
+                        "Candidates",
+                        tables.candidates_table(),
+                        html.P(
+                            "Pick a row to carry that model to the Forecast Board; the best "
+                            "by AICc is picked to start with. Click a heading to sort.",
+                            className="hc-figure-note",
+                        ),
+                        lead="ARIMA orders ranked by AICc; rejected fits are listed with the reason.",
+                    ),
+                    section(
+                        "Benchmarks",
+                        html.Div(id="bench-benchmarks"),
+                        lead="Simple methods every model must beat on past years.",
+                    ),
+                ],
+                className="hc-grid bench-grid--cands",
+            ),
+            section(
+                "Hindcast",
+                html.Div(id="bench-verdict", className="hc-verdict"),
+                tables.skill_table(),
+                html.Div(
+                    [
+                        _graph("bench-hindcast-graph", "hindcast", 380),
+                        _graph("bench-skill-graph", "hindcast_mase", 260),
+                    ],
+                    className="hc-grid bench-grid--hc",
+                ),
+                html.P(
+                    "Each line starts at an origin year and shows what the model forecast from "
+                    "the data up to then; the dark line is what happened. Click 'last value' in "
+                    "the legend to compare.",
+                    className="hc-figure-note",
+                ),
+                lead="Past years replayed with a rolling origin: fit on the data up to each year, "
+                "forecast ahead, compare with what happened.",
+            ),
+            section(
+                "Residual checks",
+                html.Div(id="bench-ljung", className="hc-verdict"),
+                html.Div(
+                    [
+                        _graph("bench-resid-time", "residuals"),
+                        _graph("bench-resid-acf", "residual_acf"),
+                        _graph("bench-resid-qq", "residual_qq"),
+                    ],
+                    className="hc-grid bench-grid--3",
+                ),
+                lead="One-step residuals of the picked model on the transformed scale.",
+            ),
+        ],
+        id="bench-results",
+    )
+    return html.Div(
+        [
+            dcc.Store(id="bench-mount", data=True),
+            dcc.Store(id="bench-request"),
+            page_header(
+                "Model Bench",
+                "Search ARIMA orders, measure them against simple benchmarks "
+                "on past years, check the residuals and pick the model to forecast with.",
+                step=2,
+            ),
+            html.Div(id="bench-alert"),
+            html.Div(
+                [
+                    _settings_panel(),
+                    html.Div(
+                        [
+                            dcc.Loading(
+                                results,
+                                custom_spinner=_progress(),
+                                delay_show=120,
+                                overlay_style={"visibility": "visible", "opacity": 0.35},
+                            ),
+                            html.Div(
+                                [
+                                    html.Span(id="bench-picked", className="hc-muted"),
+                                    dcc.Link(
+                                        "Go to Forecast Board \u2192",
+                                        href="/board",
+                                        id="bench-to-board",
+                                        className="hc-button",
+                                    ),
+                                ],
+                                className="hc-next",
+                            ),
+                        ]
+                    ),
+                ],
+                className="hc-grid hc-grid--side",
+            ),
+        ],
+        className="hc-page bench-page",
+    )
+
+
+# ---------------------------------------------------------------------------------------------
+# Callbacks (thin: settings -> core -> figures)
+# ---------------------------------------------------------------------------------------------
+
+_CONTROLS = [
+    "bench-search",
+    "bench-max-p",
+    "bench-max-q",
+    "bench-seasonal",
+    "bench-transform",
+    "bench-constant",
+    "bench-origins",
+    "bench-horizon",
+]
+
+
+def _request(sel: Mapping[str, Any]) -> dict[str, Any]:
+    return {k: sel.get(k) for k in ("dataset_id", "series", "transform", "bench", "model")} | {
+        "t": time.time()
+    }
+
+
+@callback(
+    *[Output(c, "value") for c in _CONTROLS],
+    Output("bench-seasonal", "options"),
+    Output("bench-request", "data"),
+    Output("bench-alert", "children"),
+    Input("bench-mount", "data"),
+    State(SELECTION_ID, "data"),
+)
+@guarded("restoring the Model Bench settings", outputs=11, alert_at=10)
+def restore(_mount: Any, data: Mapping[str, Any] | None) -> list[Any]:
+    sel = resolve_selection(data)
+    try:
+        b = bench_settings(sel.get("bench"))
+    except fc.InputError:
+        b = dict(DEFAULT_BENCH)
+    sel["bench"] = b
+    frequency = None
+    if sel["dataset_id"] and sel["series"]:
+        from app.store import get_store
+
+        frequency = get_store().load_table(sel["dataset_id"]).info[sel["series"]].frequency
+    annual = frequency in (None, "annual")
+    options = [
+        {
+            "label": "Search seasonal terms" + (" (not for annual data)" if annual else ""),
+            "value": "on",
+            "disabled": annual,
+        }
+    ]
+    return [
+        b["search"],
+        b["max_p"],
+        b["max_q"],
+        ["on"] if b["seasonal"] and not annual else [],
+        sel["transform"],
+        b["constant"],
+        b["origins"],
+        b["horizon"],
+        options,
+        _request(sel),
+        None,
+    ]
+
+
+@callback(
+    Output("bench-request", "data", allow_duplicate=True),
+    Output(SELECTION_ID, "data", allow_duplicate=True),
+    Output("bench-alert", "children", allow_duplicate=True),
+    Input("bench-run", "n_clicks"),
+    *[State(c, "value") for c in _CONTROLS],
+    State(SELECTION_ID, "data"),
+    prevent_initial_call=True,
+)
+@guarded("reading the settings", outputs=3, alert_at=2)
+def run(
+    _n: int,
+    search: str,
+    max_p: Any,
+    max_q: Any,
+    seasonal: list[str] | None,
+    transform: str,
+    constant: str,
+    origins: Any,
+    horizon: Any,
+    data: Mapping[str, Any] | None,
+) -> list[Any]:
+    bench = bench_settings(
+        {
+            "search": search,
+            "max_p": max_p,
+            "max_q": max_q,
+            "seasonal": "on" in (seasonal or []),
+            "constant": constant,
+            "origins": origins,
+            "horizon": horizon,
+        }
+    )
+    new = update_selection(data, bench=bench, transform=transform)
+    return [_request(resolve_selection(new)), new, None]
+
+
+@callback(
+    Output("bench-status", "children"),
+    Output("bench-candidates", "data"),
+    Output("bench-candidates", "selected_row_ids"),
+    Output("bench-benchmarks", "children"),
+    Output("bench-skill", "data"),
+    Output("bench-verdict", "children"),
+    Output("bench-timing", "children"),
+    Output("bench-alert", "children", allow_duplicate=True),
+    Input("bench-request", "data"),
+    prevent_initial_call=True,
+)
+@guarded("comparing models", outputs=8, alert_at=7)
+def render(request: Mapping[str, Any] | None) -> list[Any]:
+    if not request:
+        raise PreventUpdate
+    started = time.perf_counter()
+    comparison = comparison_for(request)
+    elapsed = time.perf_counter() - started
+    picked = chosen_candidate(comparison, request.get("model"))
+    n_ok = len(comparison.accepted)
+    status = [
+        html.Strong(f"{comparison.series_name}: "),
+        f"{comparison.observations} {comparison.frequency} values, transform "
+        f"{comparison.transform.name}"
+        + (
+            f" (lambda {comparison.transform.lam:.2f})"
+            if comparison.transform.lam is not None
+            else ""
+        )
+        + f"; {n_ok} candidate{'s' if n_ok != 1 else ''} accepted, {len(comparison.rejected)} rejected. "
+        f"Best by AICc: {comparison.best.label}.",
+        *[
+            html.Div(f"Warning: {w}", className="hc-alert hc-alert--warning bench-warning")
+            for w in comparison.warnings
+        ],
+    ]
+    verdict = comparison.hindcast.verdict if comparison.hindcast else "No hindcast was run."
+    return [
+        status,
+        tables.candidate_rows(comparison),
+        [picked.label] if picked.ok else [],
+        tables.benchmark_panel(comparison),
+        tables.skill_rows(comparison),
+        html.P(verdict),
+        f"Answered in {elapsed:.2f} s.",
+        None,
+    ]
+
+
+@callback(
+    Output("bench-hindcast-graph", "figure"),
+    Output("bench-skill-graph", "figure"),
+    Output("bench-resid-time", "figure"),
+    Output("bench-resid-acf", "figure"),
+    Output("bench-resid-qq", "figure"),
+    Output("bench-ljung", "children"),
+    Output("bench-picked", "children"),
+    Output(SELECTION_ID, "data", allow_duplicate=True),
+    Output("bench-alert", "children", allow_duplicate=True),
+    Input("bench-candidates", "selected_row_ids"),
+    State("bench-request", "data"),
+    State(SELECTION_ID, "data"),
+    prevent_initial_call=True,
+)
+@guarded("showing the picked model", outputs=9, alert_at=8)
+def pick(
+    row_ids: list[str] | None, request: Mapping[str, Any] | None, data: Mapping[str, Any] | None
+) -> list[Any]:
+    if not request or not row_ids:
+        raise PreventUpdate
+    comparison = comparison_for(request)
+    label = row_ids[0]
+    candidate = next((c for c in comparison.candidates if c.label == label), None)
+    if candidate is None or not candidate.ok:
+        why = candidate.reason if candidate is not None else "not part of this comparison"
+        return [no_update] * 8 + [
+            html.Div(
+                f"{label} cannot be used: {why}. Pick an accepted model.",
+                className="hc-alert hc-alert--warning",
+                role="alert",
+            )
+        ]
+    unit = _unit(request)
+    if comparison.hindcast is not None:
+        shown = label if comparison.hindcast.score(label) else comparison.best.label
+        hc_fig = figures.hindcast_figure(
+            comparison.hindcast,
+            candidate.series,
+            model=shown,
+            unit=unit,
+            series_name=comparison.series_name,
+        )
+        skill_fig = figures.skill_figure(comparison.hindcast)
+    else:
+        hc_fig = skill_fig = go.Figure()
+    report = (
+        comparison.diagnostics
+        if (comparison.diagnostics is not None and comparison.diagnostics.model == label)
+        else fc.check_residuals(candidate)
+    )
+    ljung = [html.P([html.Strong(f"{label}: "), report.verdict])]
+    if comparison.hindcast is not None and comparison.hindcast.score(label) is None:
+        ljung.append(
+            html.P(
+                f"{label} was not replayed on the hindcast (only the best three are); "
+                f"the hindcast plot shows {comparison.best.label}.",
+                className="hc-small",
+            )
+        )
+    stored = None if label == comparison.best.label else label
+    sel = update_selection(data)
+    new_sel = no_update if sel.get("model") == stored else update_selection(data, model=stored)
+    picked = f"Forecast Board will use {label}" + (" (best by AICc)." if stored is None else ".")
+    return [
+        hc_fig,
+        skill_fig,
+        figures.residuals_figure(report),
+        figures.residual_acf_figure(report),
+        figures.qq_figure(report),
+        ljung,
+        picked,
+        new_sel,
+        None,
+    ]
+
+
+def _unit(request: Mapping[str, Any]) -> str | None:
+    from app.store import get_store
+
+    info = get_store().load_table(request["dataset_id"]).info.get(request["series"])
+    return info.unit if info is not None else None

@@ -1,0 +1,376 @@
+"""Forecast Board (/board): forecast bands, the reference level, the summary and the exports.
+
+The board follows the model picked on the Model Bench (``hc-selection["model"]``; the best by
+AICc when none was picked) and reads the same memoized comparison. ``?present=1`` (or the
+presentation button) switches to large type with the technical panels hidden.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Mapping
+from typing import Any
+
+import dash
+import plotly.graph_objects as go
+from dash import Input, Output, State, callback, dcc, html, no_update
+from dash.exceptions import PreventUpdate
+
+import forecasting_core as fc
+from app import export, figures, tables, wording
+from app.analysis import board_state, parse_reference
+from app.state import SELECTION_ID, update_selection
+from app.ui import caution_box, fmt_number, guarded, html_table, page_header, section
+
+dash.register_page(
+    __name__, path="/board", name="Forecast Board", order=3, title="Forecast Board \u00b7 Haulcast"
+)
+
+#: Years of history drawn before the forecast, by frequency.
+HISTORY_YEARS = {"annual": 40, "quarterly": 15, "monthly": 10}
+
+
+# ---------------------------------------------------------------------------------------------
+# Pieces
+# ---------------------------------------------------------------------------------------------
+
+
+def _fan(state: Mapping[str, Any], present: bool) -> go.Figure:
+    forecast = state["forecast"]
+    fig = figures.fan_chart(
+        forecast,
+        state["candidate"].series,
+        unit=state["unit"],
+        history_years=HISTORY_YEARS.get(forecast.frequency, 40),
+        height=560 if present else 440,
+    )
+    if present:
+        fig.update_layout(font={"size": 19})
+    return fig
+
+
+def _prob(state: Mapping[str, Any], present: bool) -> go.Figure:
+    fig = figures.prob_below_figure(state["forecast"], height=300 if present else 240)
+    if present:
+        fig.update_layout(font={"size": 18})
+    return fig
+
+
+def _details(state: Mapping[str, Any]) -> list[Any]:
+    c: fc.Candidate = state["candidate"]
+    comparison: fc.Comparison = state["comparison"]
+    forecast: fc.Forecast = state["forecast"]
+    spec = c.transform
+    rows = [
+        {"k": "Model", "v": c.label},
+        {
+            "k": "Transform",
+            "v": spec.name + (f" (lambda {spec.lam:.3f})" if spec.lam is not None else ""),
+        },
+        {"k": "AICc", "v": fmt_number(c.aicc, 6)},
+        {"k": "Innovation variance (transformed scale)", "v": fmt_number(c.sigma2, 4)},
+        {
+            "k": "Coefficients",
+            "v": ", ".join(f"{k} {v:.4g}" for k, v in c.params.items() if k != "sigma2") or "none",
+        },
+        {"k": "Bands from", "v": forecast.band_source},
+        {"k": "Observations", "v": str(comparison.observations)},
+    ]
+    parts: list[Any] = [html_table(rows, [("k", "Item"), ("v", "Value")])]
+    if comparison.hindcast is not None:
+        parts.append(html.P([html.Strong("Hindcast: "), comparison.hindcast.verdict]))
+    if comparison.diagnostics is not None and comparison.diagnostics.model == c.label:
+        parts.append(html.P([html.Strong("Residuals: "), comparison.diagnostics.verdict]))
+    for w in (*forecast.warnings, *comparison.warnings):
+        parts.append(html.Div(w, className="hc-alert hc-alert--warning", role="note"))
+    return parts
+
+
+def _safe_name(text: str) -> str:
+    return re.sub(r"[^A-Za-z0-9_.-]+", "_", text).strip("_") or "forecast"
+
+
+# ---------------------------------------------------------------------------------------------
+# Layout
+# ---------------------------------------------------------------------------------------------
+
+
+def _graph(graph_id: str, name: str, height: int) -> dcc.Graph:
+    return dcc.Graph(
+        id=graph_id,
+        config=figures.graph_config(name),
+        className="hc-graph",
+        figure=figures.blank_figure(height),
+    )
+
+
+def layout(present: str | None = None, **_query: Any) -> html.Div:
+    """The Forecast Board page (``?present=1`` opens it in presentation mode)."""
+    on = str(present or "").strip().lower() in ("1", "true", "yes", "on")
+    return html.Div(
+        [
+            dcc.Store(id="board-mount", data=True),
+            dcc.Store(id="board-present", data=on),
+            html.Div(
+                [
+                    page_header(
+                        "Forecast Board",
+                        "The forecast with its uncertainty, the chance of "
+                        "falling below a reference level, and the exports.",
+                        step=3,
+                    ),
+                    html.Button(
+                        "Leave presentation" if on else "Presentation mode",
+                        id="board-present-toggle",
+                        n_clicks=0,
+                        className="hc-button hc-button--quiet board-present-toggle",
+                    ),
+                ],
+                className="board-head",
+            ),
+            html.Div(id="board-alert"),
+            dcc.Loading(
+                [
+                    section(
+                        "In plain words",
+                        html.Div(id="board-summary", className="board-summary"),
+                        html.P(id="board-model", className="board-model"),
+                        className="board-summary-box",
+                    ),
+                    html.Div(
+                        [
+                            section(
+                                "Forecast",
+                                _graph("board-fan", "fan_chart", 440),
+                                caution_box(compact=True),
+                                html.P(
+                                    "Shaded bands: 50%, 80% and 95% of outcomes expected inside. "
+                                    "Camera button on the chart: save it as PNG.",
+                                    className="hc-figure-note hc-technical",
+                                ),
+                            ),
+                            section(
+                                "Reference level",
+                                html.Div(
+                                    [
+                                        html.Label(
+                                            "Reference level",
+                                            htmlFor="board-reference",
+                                            className="hc-field__label",
+                                        ),
+                                        dcc.Input(
+                                            id="board-reference",
+                                            type="number",
+                                            debounce=0.6,
+                                            placeholder="e.g. a limit reference point",
+                                            className="hc-input",
+                                        ),
+                                        html.Span(
+                                            "The chance that each year ahead falls below it.",
+                                            className="hc-field__hint",
+                                        ),
+                                    ],
+                                    className="hc-field",
+                                ),
+                                _graph("board-prob", "chance_below_reference", 240),
+                            ),
+                        ],
+                        className="hc-grid board-grid",
+                    ),
+                    section(
+                        "Forecast table", html.Div(id="board-table", className="hc-table-wrap")
+                    ),
+                    section(
+                        "Model details",
+                        html.Div(id="board-details"),
+                        className="hc-technical",
+                        lead="What produced these bands.",
+                    ),
+                ],
+                type="circle",
+                delay_show=150,
+            ),
+            section(
+                "Export",
+                html.Div(
+                    [
+                        html.Button(
+                            "Download forecast CSV",
+                            id="board-download-csv",
+                            n_clicks=0,
+                            className="hc-button",
+                        ),
+                        html.Button(
+                            "Download HTML report",
+                            id="board-download-html",
+                            n_clicks=0,
+                            className="hc-button hc-button--quiet",
+                        ),
+                    ],
+                    className="hc-row",
+                ),
+                html.P(
+                    "The report opens offline and records the settings, the data hash and package "
+                    "versions. For a PNG of a chart, use the camera button above it.",
+                    className="hc-figure-note",
+                ),
+                dcc.Download(id="board-csv"),
+                dcc.Download(id="board-html"),
+                className="hc-technical",
+            ),
+        ],
+        id="board-wrapper",
+        className="hc-page board-page" + (" hc-present" if on else ""),
+    )
+
+
+# ---------------------------------------------------------------------------------------------
+# Callbacks
+# ---------------------------------------------------------------------------------------------
+
+
+@callback(
+    Output("board-reference", "value"),
+    Input("board-mount", "data"),
+    State(SELECTION_ID, "data"),
+)
+def restore(_mount: Any, data: Mapping[str, Any] | None) -> Any:
+    ref = (data or {}).get("reference") if isinstance(data, Mapping) else None
+    return ref if isinstance(ref, int | float) and math.isfinite(ref) else None
+
+
+@callback(
+    Output("board-present", "data"),
+    Output("board-wrapper", "className"),
+    Output("board-present-toggle", "children"),
+    Input("board-present-toggle", "n_clicks"),
+    State("board-present", "data"),
+    prevent_initial_call=True,
+)
+def toggle_present(_n: int, on: bool | None) -> list[Any]:
+    on = not bool(on)
+    return [
+        on,
+        "hc-page board-page" + (" hc-present" if on else ""),
+        "Leave presentation" if on else "Presentation mode",
+    ]
+
+
+@callback(
+    Output("board-summary", "children"),
+    Output("board-model", "children"),
+    Output("board-fan", "figure"),
+    Output("board-prob", "figure"),
+    Output("board-table", "children"),
+    Output("board-details", "children"),
+    Output("board-alert", "children"),
+    Input("board-reference", "value"),
+    Input("board-present", "data"),
+    State(SELECTION_ID, "data"),
+)
+@guarded("drawing the forecast", outputs=7, alert_at=6)
+def render(reference: Any, present: bool | None, data: Mapping[str, Any] | None) -> list[Any]:
+    state = board_state(data, reference)
+    forecast = state["forecast"]
+    sentences = wording.forecast_summary(forecast, state["comparison"], unit=state["unit"])
+    how = "picked on the Model Bench" if state["picked"] else "best by AICc on the Model Bench"
+    model = [
+        html.Span("Model: ", className="hc-muted"),
+        html.Strong(state["candidate"].label, id="board-model-label"),
+        f" ({how})",
+    ]
+    return [
+        [html.P(s) for s in sentences],
+        model,
+        _fan(state, bool(present)),
+        _prob(state, bool(present)),
+        tables.forecast_table(forecast, state["unit"]),
+        _details(state),
+        None,
+    ]
+
+
+@callback(
+    Output(SELECTION_ID, "data", allow_duplicate=True),
+    Input("board-reference", "value"),
+    State(SELECTION_ID, "data"),
+    prevent_initial_call=True,
+)
+def save_reference(reference: Any, data: Mapping[str, Any] | None) -> Any:
+    try:
+        ref = parse_reference(reference)
+    except fc.InputError:
+        return no_update
+    current = (data or {}).get("reference") if isinstance(data, Mapping) else None
+    if current == ref:
+        raise PreventUpdate
+    return update_selection(data, reference=ref)
+
+
+@callback(
+    Output("board-csv", "data"),
+    Output("board-alert", "children", allow_duplicate=True),
+    Input("board-download-csv", "n_clicks"),
+    State("board-reference", "value"),
+    State(SELECTION_ID, "data"),
+    prevent_initial_call=True,
+)
+@guarded("writing the forecast CSV", outputs=2, alert_at=1)
+def download_csv(n: int, reference: Any, data: Mapping[str, Any] | None) -> list[Any]:
+    if not n:
+        raise PreventUpdate
+    state = board_state(data, reference)
+    text = export.forecast_csv(
+        state["forecast"],
+        state["comparison"],
+        unit=state["unit"],
+        dataset_hash=state["selection"]["dataset_id"],
+        dataset_name=state["dataset_name"],
+    )
+    name = f"{_safe_name(state['forecast'].series_name)}_forecast.csv"
+    return [dcc.send_string(text, name, type="text/csv"), None]
+
+
+@callback(
+    Output("board-html", "data"),
+    Output("board-alert", "children", allow_duplicate=True),
+    Input("board-download-html", "n_clicks"),
+    State("board-reference", "value"),
+    State(SELECTION_ID, "data"),
+    prevent_initial_call=True,
+)
+@guarded("writing the HTML report", outputs=2, alert_at=1)
+def download_html(n: int, reference: Any, data: Mapping[str, Any] | None) -> list[Any]:
+    if not n:
+        raise PreventUpdate
+    state = board_state(data, reference)
+    forecast, comparison = state["forecast"], state["comparison"]
+    figs: list[tuple[str, go.Figure]] = [("Forecast", _fan(state, False))]
+    if forecast.reference is not None:
+        figs.append(("Chance of falling below the reference level", _prob(state, False)))
+    if comparison.hindcast is not None:
+        label = state["candidate"].label
+        shown = label if comparison.hindcast.score(label) else comparison.best.label
+        figs.append(
+            (
+                f"Hindcast: {shown} on past years",
+                figures.hindcast_figure(
+                    comparison.hindcast,
+                    state["candidate"].series,
+                    model=shown,
+                    unit=state["unit"],
+                    series_name=comparison.series_name,
+                ),
+            )
+        )
+    page = export.report_html(
+        forecast,
+        comparison,
+        figures=figs,
+        unit=state["unit"],
+        dataset_hash=state["selection"]["dataset_id"],
+        dataset_name=state["dataset_name"],
+    )
+    name = f"{_safe_name(forecast.series_name)}_report.html"
+    return [dcc.send_string(page, name, type="text/html"), None]

@@ -1,0 +1,208 @@
+"""Table rows and table components for the Model Bench and the Forecast Board."""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from dash import dash_table, html
+from dash.dash_table.Format import Format, Scheme, Symbol
+
+import forecasting_core as fc
+from app import wording
+from app.ui import FONT_FAMILY, PALETTE, fmt_number, html_table
+
+
+def _num(x: Any) -> float | None:
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return None
+    return None if math.isnan(v) or math.isinf(v) else v
+
+
+def candidate_rows(comparison: fc.Comparison) -> list[dict[str, Any]]:
+    """Rows of the candidates table (``id`` is the label; rejected ones last, with reasons)."""
+    return [
+        {
+            "id": c.label,
+            "model": c.label,
+            "aicc": _num(c.aicc),
+            "delta": _num(c.delta_aicc),
+            "weight": _num(c.weight),
+            "bic": _num(c.bic),
+            "status": "ok" if c.ok else f"rejected: {c.reason or 'no reason given'}",
+        }
+        for c in comparison.candidates
+    ]
+
+
+def skill_rows(comparison: fc.Comparison) -> list[dict[str, Any]]:
+    """Rows of the hindcast skill table, one per model replayed."""
+    if comparison.hindcast is None:
+        return []
+    return [
+        {
+            "id": s.model,
+            "model": s.model,
+            "kind": "ARIMA" if s.kind == "arima" else "benchmark",
+            "mae": _num(s.mae),
+            "rmse": _num(s.rmse),
+            "mase": _num(s.mase),
+            "cov80": _num(s.coverage80),
+            "cov95": _num(s.coverage95),
+            "is80": _num(s.interval_score80),
+            "is95": _num(s.interval_score95),
+        }
+        for s in comparison.hindcast.scores
+    ]
+
+
+def _fixed(digits: int) -> Format:
+    return Format(precision=digits, scheme=Scheme.fixed).group(True)
+
+
+def _table_style(**extra: Any) -> dict[str, Any]:
+    return {
+        "style_table": {"overflowX": "auto"},
+        "style_cell": {
+            "fontFamily": FONT_FAMILY,
+            "fontSize": "0.92rem",
+            "padding": "6px 10px",
+            "textAlign": "right",
+            "border": "none",
+            "borderBottom": f"1px solid {PALETTE['line']}",
+        },
+        "style_header": {
+            "fontFamily": FONT_FAMILY,
+            "backgroundColor": "#efe8da",
+            "color": PALETTE["deep"],
+            "fontWeight": 700,
+            "borderBottom": f"2px solid {PALETTE['line']}",
+        },
+        "style_cell_conditional": [
+            *({"if": {"column_id": c}, "textAlign": "left"} for c in ("model", "status", "kind")),
+            {
+                "if": {"column_id": "status"},
+                "whiteSpace": "normal",
+                "minWidth": "9rem",
+                "maxWidth": "22rem",
+            },
+            {"if": {"column_id": "model"}, "whiteSpace": "nowrap"},
+        ],
+        **extra,
+    }
+
+
+def candidates_table() -> dash_table.DataTable:
+    columns = [
+        {"name": "Model", "id": "model"},
+        {"name": "AICc", "id": "aicc", "type": "numeric", "format": _fixed(2)},
+        {"name": "\u0394 AICc", "id": "delta", "type": "numeric", "format": _fixed(2)},
+        {"name": "Weight", "id": "weight", "type": "numeric", "format": _fixed(3)},
+        {"name": "BIC", "id": "bic", "type": "numeric", "format": _fixed(2)},
+        {"name": "Status", "id": "status"},
+    ]
+    return dash_table.DataTable(
+        id="bench-candidates",
+        columns=columns,
+        data=[],
+        row_selectable="single",
+        sort_action="native",
+        page_action="native",
+        page_size=12,
+        selected_row_ids=[],
+        tooltip_delay=0,
+        tooltip_duration=None,
+        **_table_style(
+            style_data_conditional=[
+                {
+                    "if": {"filter_query": '{status} != "ok"'},
+                    "color": PALETTE["muted"],
+                    "fontStyle": "italic",
+                },
+                {
+                    "if": {"state": "selected"},
+                    "backgroundColor": PALETTE["foam"],
+                    "border": "none",
+                    "borderBottom": f"1px solid {PALETTE['line']}",
+                },
+            ],
+        ),
+    )
+
+
+def skill_table() -> dash_table.DataTable:
+    pct = Format(precision=0, scheme=Scheme.fixed, symbol=Symbol.yes, symbol_suffix="%")
+    columns = [
+        {"name": "Model", "id": "model"},
+        {"name": "Kind", "id": "kind"},
+        {"name": "MAE", "id": "mae", "type": "numeric", "format": _fixed(1)},
+        {"name": "RMSE", "id": "rmse", "type": "numeric", "format": _fixed(1)},
+        {"name": "MASE", "id": "mase", "type": "numeric", "format": _fixed(3)},
+        {"name": "80% coverage", "id": "cov80", "type": "numeric", "format": pct},
+        {"name": "95% coverage", "id": "cov95", "type": "numeric", "format": pct},
+        {"name": "Interval score 80%", "id": "is80", "type": "numeric", "format": _fixed(1)},
+        {"name": "Interval score 95%", "id": "is95", "type": "numeric", "format": _fixed(1)},
+    ]
+    return dash_table.DataTable(
+        id="bench-skill", columns=columns, data=[], sort_action="native", **_table_style()
+    )
+
+
+def forecast_rows(forecast: fc.Forecast) -> list[dict[str, Any]]:
+    """Rows of the on-page forecast table (values formatted, ranges as 'low - high')."""
+    rows = []
+    for _, r in forecast.table.iterrows():
+        row = {
+            "time": str(r["time"]),
+            "mean": fmt_number(r["mean"]),
+            "median": fmt_number(r["median"]),
+        }
+        for lv in forecast.levels:
+            row[f"r{lv}"] = f"{fmt_number(r[f'lo{lv}'])} \u2013 {fmt_number(r[f'hi{lv}'])}"
+        if forecast.reference is not None:
+            row["below"] = wording.fmt_chance(float(r["prob_below_reference"]))
+        rows.append(row)
+    return rows
+
+
+def forecast_table(forecast: fc.Forecast, unit: str | None) -> html.Table:
+    u = f" ({unit})" if unit else ""
+    columns = [("time", "Period"), ("mean", f"Expected{u}"), ("median", f"Median{u}")]
+    columns += [(f"r{lv}", f"{lv}% range") for lv in forecast.levels]
+    if forecast.reference is not None:
+        columns.append(("below", f"Chance below {fmt_number(forecast.reference)}"))
+    return html_table(
+        forecast_rows(forecast),
+        columns,
+        id="board-table-rows",
+        numeric=[k for k, _ in columns if k != "time"],
+    )
+
+
+def benchmark_panel(comparison: fc.Comparison) -> Any:
+    """The benchmarks with their hindcast MASE and how the best ARIMA compares."""
+    hc = comparison.hindcast
+    best = hc.score(comparison.best.label) if hc else None
+    rows = []
+    for b in comparison.benchmarks:
+        score = hc.score(b.label) if hc else None
+        mase = score.mase if score else math.nan
+        if best is not None and score is not None and not math.isnan(best.mase) and score.mase:
+            change = 1.0 - best.mase / score.mase
+            vs = f"{abs(change) * 100:.0f}% {'better' if change > 0 else 'worse'}"
+        else:
+            vs = "\u2014"
+        rows.append({"bench": b.label, "mase": "" if math.isnan(mase) else f"{mase:.3f}", "vs": vs})
+    return [
+        html_table(
+            rows,
+            [("bench", "Benchmark"), ("mase", "MASE"), ("vs", "Best ARIMA is")],
+            numeric=("mase", "vs"),
+        ),
+        html.P(
+            "MASE below 1: better than the in-sample last-value forecast.",
+            className="hc-figure-note",
+        ),
+    ]
