@@ -121,13 +121,21 @@ def read_table(source: str | Path | bytes, *, name: str | None = None) -> Table:
     sha = hashlib.sha256(data).hexdigest()
     if not data.strip():
         raise InputError("the file is empty. Export the sheet again with its header and values.")
-    if label_.lower().endswith((".xlsx", ".xlsm")) or data.startswith(b"PK\x03\x04"):
+    if data.startswith(b"PK\x03\x04"):  # a workbook is a zip archive, whatever its name
         grid = xlsx_grid(data)
     else:
         check_not_binary(data)
         text, notes = decode(data)
         grid = text_grid(text)
         grid.notes[:0] = notes
+        if label_.lower().endswith((".xlsx", ".xlsm")):
+            grid.notes.insert(
+                0,
+                Problem(
+                    "warning",
+                    f"{label_!r} is named like a workbook but holds text; it was read as CSV.",
+                ),
+            )
     return _Reader(grid, label_, sha).read()
 
 

@@ -834,3 +834,10 @@ def test_long_layout_with_two_value_columns_gives_one_series_per_name_and_column
     assert list(table.info) == ["a landings_t", "a effort_days", "b landings_t", "b effort_days"]
     assert table.info["b effort_days"].unit == "days"
     assert table.series["b landings_t"]["2009"] == 157
+
+
+def test_a_csv_named_xlsx_is_read_as_text_with_a_warning():
+    text = "year,hake_t\n" + "".join(f"{1990 + k},{100 + k % 6}\n" for k in range(20))
+    table = fc.read_table(text.encode(), name="renamed.xlsx")
+    assert "hake_t" in table.series
+    assert any("named like a workbook but holds text" in p.message for p in table.warnings)
