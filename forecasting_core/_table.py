@@ -15,12 +15,20 @@ Rules (the README and ``check`` report refer to these):
   times repeat too), a time column, one or more value columns, optionally a ``unit`` column.
 * **Time.** The time column is found by its header (``year``, ``date``, ``period``, ``Jahr``,
   ``año`` ...) or as the leftmost column whose cells are mostly times. Accepted: integer years,
-  ``YYYY-MM`` (also ``YYYY/MM``, ``Mar 2020``), ``YYYY-Qn`` (also ``YYYYQn``, ``Qn YYYY``), ISO
-  dates ``YYYY-MM-DD`` and ``DD.MM.YYYY`` / ``DD/MM/YYYY`` / ``MM/DD/YYYY`` (day or month first
-  decided from the column; a guess is reported) (frequency from their spacing: all steps multiples of 12 months -> annual,
-  of 3 -> quarterly, else monthly), and a year column plus a ``month``/``quarter`` column. Years
-  must be 1800-2100. A row whose time has digits but cannot be read is an error for every series
-  with a value in it; a row whose time is a word (``Total``, ``Mean``) is skipped with a warning.
+  ``YYYY-MM`` (also ``YYYY/MM``, ``2020-Mar``), ``YYYY-Qn`` (also ``YYYYQn``, ``Qn YYYY``), dates
+  ``YYYY-MM-DD``, ``DD.MM.YYYY``, ``DD/MM/YYYY`` or ``MM/DD/YYYY`` (day or month first is decided
+  from the whole column; a guess is reported), and a year column plus a ``month``/``quarter``
+  column. The frequency of dates comes from their spacing: all steps whole years -> annual, all
+  multiples of 3 months -> quarterly, else monthly; two dates in one month is an error. Years
+  must be 1800-2100. A row whose time has digits but cannot be read (or has another frequency)
+  is an error for every series with a value in it; a row whose time is a word (``Total``,
+  ``Source: ...``) is skipped with a warning. Unsorted rows are sorted, with a warning.
+* **Duplicates.** A period in two rows with different values is an error for that series naming
+  both rows; the same value twice, or an exact repeat of a whole row, is kept once (warning).
+* **Files.** A workbook is recognised by its content (a zip archive), whatever its name; only
+  the first sheet is read (the report says which). Text may be UTF-8 with or without BOM,
+  UTF-16 with BOM, else Windows-1252/Latin-1 (warning); delimiters comma, semicolon, tab or bar;
+  a ``sep=;`` first line is honoured; title lines above the header are skipped (warning).
 * **Numbers.** Decimal point or comma is chosen from unambiguous cells (``12.5`` vs ``12,5``);
   the other mark is accepted as thousands separator only in groups of three (``1,234.5``,
   ``1.234,5``, ``1 234,5``). Empty, ``NA``, ``-``, ``..`` and similar are missing values (warning).
@@ -31,7 +39,8 @@ Rules (the README and ``check`` report refer to these):
 * **Units.** From a long-layout unit column (a change of unit inside a series is an error), a
   units row under the header (warning, the row is not data), or the header: ``name (unit)`` /
   ``name [unit]``, or a last ``_``-separated word that is a known unit (``hake_t`` -> ``t``,
-  ``cpue_index`` -> ``index``; ``hake_kg_per_tow`` -> ``kg/tow``). Series keep the full header as their name (``hake_t``).
+  ``cpue_index`` -> ``index``; ``hake_kg_per_tow`` -> ``kg/tow``). Series keep the full
+  header as their name (``hake_t``).
 * Nothing is dropped silently: skipped rows, columns and cells are all reported; missing values
   stay NaN on a complete PeriodIndex from the first to the last value of each series.
 """
