@@ -8,7 +8,7 @@ from __future__ import annotations
 import re
 from typing import Any
 
-from dash import html
+from dash import dcc, html
 
 import forecasting_core as fc
 from app.state import TRANSFORM_LABELS
@@ -279,3 +279,60 @@ def stationarity_stats(report: fc.StationarityReport) -> html.Div:
         )
     )
     return stat_row(cards)
+
+
+TRANSFORM_HINTS = {
+    "auto": "Haulcast decides: log when every value is positive and the spread grows with the level.",
+    "none": "Model the values as they are.",
+    "log": "For positive values whose ups and downs grow with the level.",
+    "boxcox": "A power between none and log, with lambda estimated from the data.",
+}
+
+
+def transform_options() -> list[dict[str, Any]]:
+    """The transform choices, each with a one-line hint."""
+    return [
+        {
+            "label": html.Span(
+                [
+                    html.Strong(TRANSFORM_LABELS[k]),
+                    html.Span(" \u2014 " + TRANSFORM_HINTS[k], className="hc-muted hc-small"),
+                ]
+            ),
+            "value": k,
+        }
+        for k in ("auto", "none", "log", "boxcox")
+    ]
+
+
+def upload_area(mb: str) -> dcc.Upload:
+    """The drag-and-drop area (``mb``: the size cap as text, e.g. ``"20 MB"``)."""
+    return dcc.Upload(
+        html.Div(
+            [
+                html.Div(
+                    "\u21e7",
+                    className="hc-upload__icon",
+                    **{"aria-hidden": "true"},
+                ),
+                html.Div(
+                    "Drop a CSV or Excel (.xlsx) file here, or click to choose one",
+                    className="hc-upload__title",
+                ),
+                html.Div(
+                    f"Up to {mb}. Wide layout (a year or month column, then one column per series) "
+                    "or long layout (series, time, value, optional unit).",
+                    className="hc-upload__hint",
+                ),
+            ]
+        ),
+        id="intake-upload",
+        accept=".csv,.txt,.tsv,.xlsx,text/csv,application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+        multiple=False,
+        className="hc-upload",
+        className_active="hc-upload hc-upload--active",
+        className_reject="hc-upload hc-upload--reject",
+        style={},
+        style_active={},
+        style_reject={},
+    )

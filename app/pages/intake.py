@@ -28,7 +28,7 @@ from dash import (
 )
 
 import forecasting_core as fc
-from app.cache import get_stationarity, resolve_transform
+from app.cache import cache, get_stationarity, resolve_transform
 from app.figures import graph_config, value_axis_title
 from app.intake_figures import (
     empty_figure,
@@ -45,11 +45,14 @@ from app.intake_views import (
     summary_view,
     tests_view,
     transform_note,
+    transform_options,
+    upload_area,
     upload_message,
 )
 from app.state import SELECTION_ID, TRANSFORM_LABELS, resolve_selection, update_selection
 from app.store import get_store
 from app.ui import (
+    PALETTE,
     alert,
     guarded,
     loading,
@@ -58,13 +61,6 @@ from app.ui import (
 )
 
 dash.register_page(__name__, path="/intake", name="Intake", order=1, title="Intake \u00b7 Haulcast")
-
-TRANSFORM_HINTS = {
-    "auto": "Haulcast decides: log when every value is positive and the spread grows with the level.",
-    "none": "Model the values as they are.",
-    "log": "For positive values whose ups and downs grow with the level.",
-    "boxcox": "A power between none and log, with lambda estimated from the data.",
-}
 
 
 def _max_bytes() -> int:
@@ -80,18 +76,6 @@ def layout(**_query: Any) -> html.Div:
     except (RuntimeError, KeyError):
         max_bytes = fc.MAX_FILE_BYTES
     mb = f"{max_bytes / 1048576:.0f} MB"
-    transform_options = [
-        {
-            "label": html.Span(
-                [
-                    html.Strong(TRANSFORM_LABELS[k]),
-                    html.Span(" \u2014 " + TRANSFORM_HINTS[k], className="hc-muted hc-small"),
-                ]
-            ),
-            "value": k,
-        }
-        for k in ("auto", "none", "log", "boxcox")
-    ]
     return html.Div(
         [
             page_header(
@@ -107,35 +91,7 @@ def layout(**_query: Any) -> html.Div:
                 [
                     section(
                         "Data",
-                        dcc.Upload(
-                            html.Div(
-                                [
-                                    html.Div(
-                                        "\u21e7",
-                                        className="hc-upload__icon",
-                                        **{"aria-hidden": "true"},
-                                    ),
-                                    html.Div(
-                                        "Drop a CSV or Excel (.xlsx) file here, or click to choose one",
-                                        className="hc-upload__title",
-                                    ),
-                                    html.Div(
-                                        f"Up to {mb}. Wide layout (a year or month column, then one column per series) "
-                                        "or long layout (series, time, value, optional unit).",
-                                        className="hc-upload__hint",
-                                    ),
-                                ]
-                            ),
-                            id="intake-upload",
-                            accept=".csv,.txt,.tsv,.xlsx,text/csv,application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
-                            multiple=False,
-                            className="hc-upload",
-                            className_active="hc-upload hc-upload--active",
-                            className_reject="hc-upload hc-upload--reject",
-                            style={},
-                            style_active={},
-                            style_reject={},
-                        ),
+                        upload_area(mb),
                         loading(html.Div(id="intake-upload-status")),
                         html.Div(
                             [
@@ -213,7 +169,7 @@ def layout(**_query: Any) -> html.Div:
                                 html.Div("Transform", className="hc-field__label"),
                                 dcc.RadioItems(
                                     id="intake-transform",
-                                    options=transform_options,
+                                    options=transform_options(),
                                     className="hc-choices",
                                 ),
                                 html.P(
@@ -450,25 +406,42 @@ def show_series(data: Mapping[str, Any] | None) -> list[Any]:
             empty_figure("No preview", height=300),
             None,
         ]
-    table = store.load_table(sel["dataset_id"])
-    y = table.series[sel["series"]]
-    unit = _unit(table, sel["series"])
-    fig = series_figure(
-        y, y_title=value_axis_title(sel["series"], unit), title=f"{sel['series']} as read"
+    fig, preview, spec = _series_figures(
+        sel["dataset_id"], sel["series"], sel["transform"], fc.__version__
     )
-    spec = resolve_transform(y, sel["transform"])
+    return [None, fig, preview, transform_note(sel["transform"], spec)]
+
+
+@cache.memoize()
+def _series_figures(
+    dataset_id: str, series: str, transform: str, core_version: str
+) -> tuple[dict[str, Any], dict[str, Any], fc.TransformSpec]:
+    """The series and transform-preview figures (as plotly JSON), memoized like the results."""
+    table = get_store().load_table(dataset_id)
+    y = table.series[series]
+    fig = series_figure(
+        y, y_title=value_axis_title(series, _unit(table, series)), title=f"{series} as read"
+    )
+    spec = resolve_transform(y, transform)
     z = fc.transform_series(y, spec)
     if not isinstance(z, pd.Series):
         z = pd.Series(z, index=y.index, name=y.name)
     preview = series_figure(
         z,
-        y_title=transform_axis_title(sel["series"], spec),
+        y_title=transform_axis_title(series, spec),
         title=f"Preview: {TRANSFORM_LABELS.get(spec.name, spec.name).lower()} scale",
-        color="#0f6e80",
+        color=PALETTE["teal"],
         height=300,
     )
-    note = transform_note(sel["transform"], spec)
-    return [None, fig, preview, note]
+    return fig.to_plotly_json(), preview.to_plotly_json(), spec
+
+
+@cache.memoize()
+def _stationarity_figure(
+    dataset_id: str, series: str, transform: str, core_version: str
+) -> dict[str, Any]:
+    """The stationarity grid (as plotly JSON), memoized like the report it draws."""
+    return stationarity_figure(get_stationarity(dataset_id, series, transform)).to_plotly_json()
 
 
 # ---------------------------------------------------------------------------------------------
@@ -501,6 +474,6 @@ def show_stationarity(data: Mapping[str, Any] | None) -> list[Any]:
         None,
         verdict,
         stationarity_stats(report),
-        stationarity_figure(report),
+        _stationarity_figure(sel["dataset_id"], sel["series"], sel["transform"], fc.__version__),
         tests_view(report),
     ]
