@@ -254,6 +254,17 @@ def compute_one(
     return comparison, forecast, record
 
 
+_WORKER_BLAS_LIMIT: Any = None
+
+
+def _init_worker() -> None:
+    """Worker set-up: one BLAS thread per process (the workers already fill the cores)."""
+    global _WORKER_BLAS_LIMIT
+    from threadpoolctl import threadpool_limits
+
+    _WORKER_BLAS_LIMIT = threadpool_limits(limits=1, user_api="blas")
+
+
 def _settings_of(horizon: int, options: Mapping[str, Any]) -> dict[str, Any]:
     return {
         "horizon": horizon,
@@ -378,7 +389,9 @@ def run_batch(
         for name in todo:
             finish(name, _task(name, table.series[name], horizon, options))
     else:
-        with ProcessPoolExecutor(max_workers=min(workers, len(todo))) as pool:
+        with ProcessPoolExecutor(
+            max_workers=min(workers, len(todo)), initializer=_init_worker
+        ) as pool:
             futures = {
                 pool.submit(_task, name, table.series[name], horizon, options): name
                 for name in todo
