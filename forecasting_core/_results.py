@@ -253,12 +253,23 @@ class Table:
         for info in self.info.values():
             state = "usable" if info.usable else "NOT usable"
             unit = f" [{info.unit}]" if info.unit else ""
+            span = (
+                "no values"
+                if not info.start
+                else f"{info.start}-{info.end}"
+                if info.frequency == "annual"
+                else f"{info.start} to {info.end}"
+            )
             lines.append(
-                f"  {info.name}{unit}: {info.frequency}, {info.start}-{info.end}, "
+                f"  {info.name}{unit}: {info.frequency}, {span}, "
                 f"{info.observations} values, {info.missing} missing - {state}"
             )
         if self.problems:
-            lines.append(f"Problems ({len(self.errors)} errors, {len(self.warnings)} warnings):")
+            n_err, n_warn = len(self.errors), len(self.warnings)
+            lines.append(
+                f"Problems ({n_err} error{'s' if n_err != 1 else ''}, "
+                f"{n_warn} warning{'s' if n_warn != 1 else ''}):"
+            )
             lines.extend("  " + p.summary() for p in self.problems)
         else:
             lines.append("No problems found.")
