@@ -1,0 +1,227 @@
+"""Candidate fitting and order search (exhaustive grid and stepwise).
+
+The exhaustive search fits every order of the grid in two passes:
+
+1. **Screening.** Orders are fitted in chains (one chain per constant choice, seasonal part
+   and AR order ``p``, with ``q`` rising); each fit is warm-started from the previous order of
+   its chain (the new MA term starts at zero, so the start is the neighbour's optimum) and
+   stopped with a loose L-BFGS tolerance.
+2. **Full fit.** Every screened order within ``REFINE_MARGIN`` AICc of the best screened one
+   (and every order whose screening did not converge) is fitted to full convergence from its
+   screened estimate; the best few are also refitted from statsmodels' own starting values,
+   keeping the higher likelihood, so that a warm start never traps the winner in a poorer
+   local optimum.
+
+Chains and full fits are independent tasks, so ``workers > 1`` spreads them over processes
+and the result is identical whatever the number of workers.
+
+The stepwise search follows Hyndman & Khandakar (2008, "Automatic time series forecasting",
+Journal of Statistical Software 27(3), section 3.2): start from the best of four simple
+models, then repeatedly move to the best neighbour (p, q, P, Q changed by one, p and q
+together, P and Q together, the constant switched) while the AICc improves.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from dataclasses import replace
+
+import numpy as np
+import pandas as pd
+
+from forecasting_core._arima import SCREEN_FACTR, SCREEN_MAXITER, fit_order, model_label
+from forecasting_core._results import Candidate, TransformSpec
+
+__all__ = ["constant_allowed", "exhaustive_search", "grid", "rank", "stepwise_search"]
+
+#: Screened orders within this many AICc units of the best screened one get a full fit.
+REFINE_MARGIN = 6.0
+#: The best few after the full fit are also refitted from statsmodels' default start.
+COLD_CHECK = 3
+
+Spec = tuple[tuple[int, int, int], tuple[int, int, int, int] | None, bool]
+
+
+# ---------------------------------------------------------------------------------------------
+# Work units (top-level functions so that a 'spawn' process pool can run them)
+# ---------------------------------------------------------------------------------------------
+
+
+def _run_chain(task: tuple[pd.Series, TransformSpec, list[Spec]]) -> list[Candidate]:
+    """Screen a chain of orders, each warm-started from the last accepted one."""
+    y, spec, chain = task
+    out: list[Candidate] = []
+    start: Mapping[str, float] | None = None
+    for order, seasonal, constant in chain:
+        c = fit_order(y, order, seasonal, constant, spec, start_params=start, maxiter=SCREEN_MAXITER, factr=SCREEN_FACTR)
+        if c.ok:
+            start = c.params
+        out.append(c)
+    return out
+
+
+def _run_full(task: tuple[pd.Series, TransformSpec, Spec, Mapping[str, float] | None]) -> Candidate:
+    y, spec, (order, seasonal, constant), start = task
+    return fit_order(y, order, seasonal, constant, spec, start_params=start)
+
+
+def _mapper(workers: int) -> tuple[Callable[[Callable, Iterable], list], Callable[[], None]]:
+    if workers <= 1:
+        return (lambda f, xs: [f(x) for x in xs]), (lambda: None)
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+
+    pool = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("spawn"))
+    return (lambda f, xs: list(pool.map(f, list(xs)))), pool.shutdown
+
+
+def _better(a: Candidate, b: Candidate) -> Candidate:
+    """The accepted fit with the higher likelihood (a on ties)."""
+    if not b.ok:
+        return a
+    if not a.ok:
+        return b
+    return b if b.loglik > a.loglik + 1e-9 else a
+
+
+# ---------------------------------------------------------------------------------------------
+# Searches
+# ---------------------------------------------------------------------------------------------
+
+
+def constant_allowed(order: tuple[int, int, int], seasonal_order: tuple[int, int, int, int] | None) -> bool:
+    """A constant (no difference) or drift (one difference) is allowed when d + D <= 1."""
+    return order[1] + (seasonal_order[1] if seasonal_order else 0) <= 1
+
+
+def grid(
+    d: int, big_d: int, m: int, max_p: int, max_q: int, max_big_p: int, max_big_q: int, constants: Sequence[bool]
+) -> list[list[Spec]]:
+    """The exhaustive grid as warm-start chains (q rising within each chain)."""
+    seasonal_parts: list[tuple[int, int, int, int] | None]
+    if m > 1:
+        seasonal_parts = [(bp, big_d, bq, m) for bp in range(max_big_p + 1) for bq in range(max_big_q + 1)]
+    else:
+        seasonal_parts = [None]
+    chains = []
+    for seasonal in seasonal_parts:
+        s = seasonal if seasonal is None or seasonal[:3] != (0, 0, 0) else None
+        for constant in constants:
+            if constant and not constant_allowed((0, d, 0), s):
+                continue
+            for p in range(max_p + 1):
+                chains.append([((p, d, q), s, constant) for q in range(max_q + 1)])
+    return chains
+
+
+def exhaustive_search(
+    y: pd.Series, spec: TransformSpec, chains: list[list[Spec]], *, workers: int = 1
+) -> list[Candidate]:
+    """Screen every order of the grid, then fully fit the promising ones (see module notes)."""
+    mapper, close = _mapper(workers)
+    try:
+        screened = [c for chain in mapper(_run_chain, [(y, spec, ch) for ch in chains]) for c in chain]
+        ok = [c for c in screened if c.ok]
+        best = min((c.aicc for c in ok), default=math.inf)
+        # full fits: promising converged screens, and unconverged ones whose last iterate
+        # (an upper bound of the order's best AICc) is already promising
+        todo = [i for i, c in enumerate(screened) if c.params and c.aicc <= best + REFINE_MARGIN]
+        tasks = [(y, spec, (screened[i].order, screened[i].seasonal_order, screened[i].constant), screened[i].params) for i in todo]
+        full = mapper(_run_full, tasks)
+        results = list(screened)
+        for i, c in zip(todo, full, strict=True):
+            results[i] = c
+        top = sorted((i for i in todo if results[i].ok), key=lambda i: results[i].aicc)[:COLD_CHECK]
+        cold = mapper(_run_full, [(y, spec, (results[i].order, results[i].seasonal_order, results[i].constant), None) for i in top])
+        for i, c in zip(top, cold, strict=True):
+            results[i] = _better(results[i], c)
+    finally:
+        close()
+    return results
+
+
+def stepwise_search(
+    y: pd.Series,
+    spec: TransformSpec,
+    d: int,
+    big_d: int,
+    m: int,
+    max_p: int,
+    max_q: int,
+    max_big_p: int,
+    max_big_q: int,
+    constants: Sequence[bool],
+    *,
+    workers: int = 1,
+    max_models: int = 94,
+) -> list[Candidate]:
+    """Hyndman & Khandakar (2008) stepwise search; returns every model it fitted."""
+    seasonal = m > 1
+    fitted: dict[Spec, Candidate] = {}
+
+    def key(p: int, q: int, bp: int, bq: int, c: bool) -> Spec | None:
+        if not (0 <= p <= max_p and 0 <= q <= max_q and 0 <= bp <= max_big_p and 0 <= bq <= max_big_q):
+            return None
+        s = (bp, big_d, bq, m) if seasonal and (bp, big_d, bq) != (0, 0, 0) else None
+        if c and not constant_allowed((p, d, q), s):
+            return None
+        if c not in constants:
+            return None
+        return ((p, d, q), s, c)
+
+    mapper, close = _mapper(workers)
+
+    def fit_all(specs: list[Spec], start: Mapping[str, float] | None) -> None:
+        new = [s for s in dict.fromkeys(specs) if s not in fitted][: max(0, max_models - len(fitted))]
+        for s, c in zip(new, mapper(_run_full, [(y, spec, s, start) for s in new]), strict=True):
+            fitted[s] = c
+
+    def coords(s: Spec) -> tuple[int, int, int, int, bool]:
+        (p, _, q), so, c = s
+        return p, q, (so[0] if so else 0), (so[2] if so else 0), c
+
+    try:
+        c0 = max(constants)  # with constant/drift when allowed (H&K: when d + D <= 1)
+        starts = [(2, 2, 1, 1), (0, 0, 0, 0), (1, 0, 1, 0), (0, 1, 0, 1)]
+        if not seasonal:
+            starts = [(p, q, 0, 0) for p, q, _, _ in starts]
+        specs = [k for p, q, bp, bq in starts if (k := key(min(p, max_p), min(q, max_q), min(bp, max_big_p), min(bq, max_big_q), c0)) or (k := key(min(p, max_p), min(q, max_q), min(bp, max_big_p), min(bq, max_big_q), False))]
+        fit_all(specs, None)
+        current = min((c for c in fitted.values() if c.ok), key=lambda c: c.aicc, default=None)
+        while current is not None and len(fitted) < max_models:
+            p, q, bp, bq, c = coords(((current.order), current.seasonal_order, current.constant))
+            moves = [(1, 0, 0, 0), (-1, 0, 0, 0), (0, 1, 0, 0), (0, -1, 0, 0), (1, 1, 0, 0), (-1, -1, 0, 0)]
+            if seasonal:
+                moves += [(0, 0, 1, 0), (0, 0, -1, 0), (0, 0, 0, 1), (0, 0, 0, -1), (0, 0, 1, 1), (0, 0, -1, -1)]
+            near = [key(p + a, q + b, bp + e, bq + f, c) for a, b, e, f in moves] + [key(p, q, bp, bq, not c)]
+            fit_all([k for k in near if k is not None], current.params)
+            better = min(
+                (fitted[k] for k in near if k is not None and k in fitted and fitted[k].ok),
+                key=lambda x: x.aicc,
+                default=None,
+            )
+            if better is None or better.aicc >= current.aicc - 1e-9:
+                break
+            current = better
+    finally:
+        close()
+    return list(fitted.values())
+
+
+def rank(candidates: Iterable[Candidate]) -> list[Candidate]:
+    """Accepted candidates by AICc with delta AICc and Akaike weights, then the rejected ones."""
+    candidates = list(candidates)
+    ok = sorted((c for c in candidates if c.ok), key=lambda c: (c.aicc, c.label))
+    bad = [c for c in candidates if not c.ok]
+    if not ok:
+        return bad
+    best = ok[0].aicc
+    raw = np.array([math.exp(-0.5 * (c.aicc - best)) for c in ok])
+    weights = raw / raw.sum()
+    ranked = [replace(c, delta_aicc=c.aicc - best, weight=float(w)) for c, w in zip(ok, weights, strict=True)]
+    return ranked + bad
+
+
+def label_of(spec_: Spec) -> str:
+    return model_label(*spec_)
