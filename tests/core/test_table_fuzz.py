@@ -110,3 +110,45 @@ def test_well_formed_generated_files_always_read_without_errors(years):
     text = "year,hake_t\n" + "".join(f"{1950 + k},{100 + (k * 37) % 23}\n" for k in range(years))
     table = fc.read_table(text.encode(), name="ok.csv")
     assert not table.errors and "hake_t" in table.series
+
+
+@st.composite
+def wide_file(draw):
+    """A clean wide table written with a random delimiter, decimal mark, encoding and line end."""
+    n_years = draw(st.integers(min_value=15, max_value=40))
+    start = draw(st.integers(min_value=1850, max_value=2050 - n_years))
+    n_series = draw(st.integers(min_value=1, max_value=4))
+    values = draw(
+        st.lists(
+            st.lists(
+                st.integers(min_value=-(10**6), max_value=10**7),
+                min_size=n_series,
+                max_size=n_series,
+            ),
+            min_size=n_years,
+            max_size=n_years,
+        )
+    )
+    sep, dec = draw(st.sampled_from([(",", "."), (";", ","), (";", "."), ("\t", "."), ("\t", ",")]))
+    nl = draw(_NL)
+    names = [f"stock{j}_t" for j in range(n_series)]
+    lines = [sep.join(["year", *names])]
+    for k, row in enumerate(values):
+        cells = [f"{v / 100:.2f}".replace(".", dec) for v in row]
+        lines.append(sep.join([str(start + k), *cells]))
+    return nl.join(lines) + nl, start, names, values
+
+
+@FUZZ
+@given(wide_file(), st.sampled_from(["utf-8", "utf-8-sig", "cp1252", "utf-16"]))
+def test_clean_wide_files_round_trip_exactly(spec, encoding):
+    text, start, names, values = spec
+    table = fc.read_table(text.encode(encoding), name="round.csv")
+    for j, name in enumerate(names):
+        info = table.info[name]
+        assert info.start == str(start) and info.missing == 0
+        got = table.series[name].to_numpy() if name in table.series else None
+        column = [row[j] / 100 for row in values]
+        if len(set(column)) > 1:
+            assert got is not None
+            assert list(got) == pytest.approx(column, abs=1e-9)
