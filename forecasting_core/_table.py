@@ -342,8 +342,9 @@ class _Reader(RowsMixin):
             return good / total, (good + kinds["range"]) / total, kinds
 
         keyword = [j for j in keep if tokens(names[j]) & (TIME_WORDS | MONTH_WORDS | QUARTER_WORDS)]
-        scored = sorted(((shares(j)[1], -j, j) for j in keyword), reverse=True)
-        tcol = scored[0][2] if scored and scored[0][0] > 0 else None
+        # Prefer the keyword column with most readable times, then most year-like cells.
+        scored = sorted(((*shares(j)[:2], -j, j) for j in keyword), reverse=True)
+        tcol = scored[0][3] if scored and scored[0][1] > 0 else None
         if tcol is None:
             tcol = next((j for j in keep if shares(j)[0] >= 0.8), None)
         if tcol is None:

@@ -841,3 +841,11 @@ def test_a_csv_named_xlsx_is_read_as_text_with_a_warning():
     table = fc.read_table(text.encode(), name="renamed.xlsx")
     assert "hake_t" in table.series
     assert any("named like a workbook but holds text" in p.message for p in table.warnings)
+
+
+def test_the_time_column_with_readable_times_wins_over_another_time_like_header():
+    rows = ["years_closed,year,hake_t"] + [
+        f"{k % 3},{1990 + k},{100 + (k * 7) % 11}" for k in range(20)
+    ]
+    table = fc.read_table(("\n".join(rows) + "\n").encode(), name="two_time.csv")
+    assert table.info["hake_t"].start == "1990"
