@@ -81,7 +81,9 @@ def build_parser() -> argparse.ArgumentParser:
         default="auto",
         help="transform before fitting (default auto)",
     )
-    batch.add_argument("--workers", metavar="N", help="worker processes (default: the number of cores)")
+    batch.add_argument(
+        "--workers", metavar="N", help="worker processes (default: the number of cores)"
+    )
     batch.add_argument(
         "--json", action="store_true", help="print a JSON list, one object per series"
     )
