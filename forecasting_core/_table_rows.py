@@ -337,6 +337,21 @@ class RowsMixin:
         infos: dict[str, SeriesInfo] = {}
         series: dict[str, pd.Series] = {}
         cells_by_row = dict(data)
+        file_unit = None
+        for j in value_cols:
+            if self._classify([p[j] for _, _, _, p in rows_ok]) != "text":
+                continue
+            found = {cell_text(c[j]) for _, _, c, _ in rows_ok if not is_empty(c[j])}
+            if tokens(names[j]) & _UNIT_WORDS and len(found) == 1:
+                file_unit = found.pop()
+                self.note(
+                    "warning",
+                    f"column {names[j]!r} holds one unit ({file_unit!r}) for every row; it was used as "
+                    "the unit of the series whose header names none.",
+                    column=names[j],
+                )
+                value_cols = [k for k in value_cols if k != j]
+                break
         for j in value_cols:
             if self._classify([p[j] for _, _, _, p in rows_ok]) == "text":
                 example = next((r, cell_text(c[j])) for r, _, c, p in rows_ok if p[j][0] == "text")
@@ -357,7 +372,7 @@ class RowsMixin:
             unit = (
                 units_row[1].get(j)
                 if units_row and j in units_row[1]
-                else header_unit(self.raw_header[j])
+                else header_unit(self.raw_header[j]) or file_unit
             )
             info, s = build_series(
                 names[j], obs, freq, unit=unit, decimal=self.decimal, problems=pre

@@ -849,3 +849,11 @@ def test_the_time_column_with_readable_times_wins_over_another_time_like_header(
     ]
     table = fc.read_table(("\n".join(rows) + "\n").encode(), name="two_time.csv")
     assert table.info["hake_t"].start == "1990"
+
+
+def test_a_wide_unit_column_with_one_value_sets_the_unit():
+    rows = ["year,landings,unit"] + [f"{1990 + k},{100 + (k * 7) % 11},tonnes" for k in range(20)]
+    table = fc.read_table(("\n".join(rows) + "\n").encode(), name="unitcol.csv")
+    assert table.layout == "wide" and list(table.series) == ["landings"]
+    assert table.info["landings"].unit == "tonnes"
+    assert any("holds one unit ('tonnes')" in p.message for p in table.warnings)
