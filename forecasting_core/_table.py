@@ -37,7 +37,8 @@ Rules (the README and ``check`` report refer to these):
 * **Minimum length.** 15 non-missing values for annual series, 20 for quarterly, 36 for monthly
   (:data:`MIN_OBSERVATIONS`); fewer is an error saying how many there are and how many are needed.
 * **Units.** From a long-layout unit column (a change of unit inside a series is an error), a
-  units row under the header (warning, the row is not data), or the header: ``name (unit)`` /
+  units row under the header (warning, the row is not data), a wide file's ``unit`` column with
+  one value throughout, or the header: ``name (unit)`` /
   ``name [unit]``, or a last ``_``-separated word that is a known unit (``hake_t`` -> ``t``,
   ``cpue_index`` -> ``index``; ``hake_kg_per_tow`` -> ``kg/tow``). Series keep the full
   header as their name (``hake_t``).
