@@ -90,6 +90,8 @@ def check_residuals(candidate: Candidate, *, lags: int | None = None) -> Residua
     burn = candidate.order[1] + (seasonal[1] * seasonal[3] if seasonal else 0)
     std = np.asarray(res.filter_results.standardized_forecasts_error[0], dtype=float)
     index = candidate.series.index
+    observed = np.isfinite(np.asarray(candidate.series, dtype=float))
+    std = np.where(observed, std, np.nan)  # statsmodels reports 0 for a missing period
     resid = pd.Series(std, index=index, name="standardized residual").iloc[burn:]
     resid = resid[np.isfinite(resid.to_numpy())]
     e = resid.to_numpy()
