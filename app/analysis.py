@@ -12,7 +12,7 @@ from typing import Any
 
 import forecasting_core as fc
 from app.cache import get_comparison, settings_json
-from app.state import TRANSFORMS, resolve_selection
+from app.state import TRANSFORMS, resolve_selection, update_selection
 
 #: Model Bench settings a new session starts from (kept in ``hc-selection["bench"]``).
 DEFAULT_BENCH: dict[str, Any] = {
@@ -162,3 +162,14 @@ def board_state(data: Mapping[str, Any] | None, reference: Any) -> dict[str, Any
         "dataset_name": store.meta(sel["dataset_id"]).filename,
         "picked": candidate.label != comparison.best.label,
     }
+
+
+def changed_selection(data: Mapping[str, Any] | None, **changes: Any) -> dict[str, Any]:
+    """The new ``hc-selection`` value with ``changes`` applied to the resolved selection.
+
+    The demo dataset and series a new visitor sees are written in as well, so a model or a
+    reference level chosen on them is kept (``resolve_selection`` drops a model that belongs
+    to no series).
+    """
+    resolved = {k: v for k, v in resolve_selection(data).items() if k != "is_demo"}
+    return update_selection(resolved, **changes)

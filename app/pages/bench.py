@@ -23,6 +23,7 @@ from app.analysis import (
     DEFAULT_BENCH,
     SEARCH_LABELS,
     bench_settings,
+    changed_selection,
     chosen_candidate,
     comparison_for,
 )
@@ -31,7 +32,6 @@ from app.state import (
     TRANSFORM_LABELS,
     TRANSFORMS,
     resolve_selection,
-    update_selection,
 )
 from app.ui import guarded, page_header, section
 
@@ -362,7 +362,7 @@ def run(
             "horizon": horizon,
         }
     )
-    new = update_selection(data, bench=bench, transform=transform)
+    new = changed_selection(data, bench=bench, transform=transform)
     return [_request(resolve_selection(new)), new, None]
 
 
@@ -477,8 +477,8 @@ def pick(
             )
         )
     stored = None if label == comparison.best.label else label
-    sel = update_selection(data)
-    new_sel = no_update if sel.get("model") == stored else update_selection(data, model=stored)
+    sel = resolve_selection(data)
+    new_sel = no_update if sel.get("model") == stored else changed_selection(data, model=stored)
     picked = f"Forecast Board will use {label}" + (" (best by AICc)." if stored is None else ".")
     return [
         hc_fig,

@@ -19,8 +19,8 @@ from dash.exceptions import PreventUpdate
 
 import forecasting_core as fc
 from app import export, figures, tables, wording
-from app.analysis import board_state, parse_reference
-from app.state import SELECTION_ID, update_selection
+from app.analysis import board_state, changed_selection, parse_reference
+from app.state import SELECTION_ID
 from app.ui import caution_box, fmt_number, guarded, html_table, page_header, section
 
 dash.register_page(
@@ -305,7 +305,7 @@ def save_reference(reference: Any, data: Mapping[str, Any] | None) -> Any:
     current = (data or {}).get("reference") if isinstance(data, Mapping) else None
     if current == ref:
         raise PreventUpdate
-    return update_selection(data, reference=ref)
+    return changed_selection(data, reference=ref)
 
 
 @callback(

@@ -73,8 +73,9 @@ def test_picking_a_model_carries_it_to_the_board(page, open_page, settle):
     _wait_for_results(page)
     settle(page)
     rows = page.locator("#bench-candidates tbody tr:has(td.dash-cell)")
-    # the second accepted row (the first is the best by AICc)
-    second = rows.filter(has_text=re.compile(r"\bok\b")).nth(1)
+    # the second row: accepted candidates come first by AICc, the best on top
+    second = rows.nth(1)
+    expect(second.locator("td[data-dash-column=status]")).to_have_text("ok")
     label = second.locator("td[data-dash-column=model]").inner_text().strip()
     second.locator("input[type=radio]").check()
     expect(page.locator("#bench-picked")).to_contain_text(f"Forecast Board will use {label}.")
