@@ -5,6 +5,8 @@ components out), kept apart from the page's layout and callbacks.
 
 from __future__ import annotations
 
+import base64
+import binascii
 import re
 from typing import Any
 
@@ -56,6 +58,23 @@ def upload_message(store: Any, dataset_id: str) -> html.Div:
     )
     kind = "ok" if usable and not n_err else ("warning" if usable else "error")
     return alert(text, kind, title="Uploaded")
+
+
+def share_note(store: Any, dataset_id: str | None, host_url: str) -> Any:
+    """For an upload (not demo data): the link that opens it in another browser session."""
+    if not dataset_id or dataset_id in store.samples():
+        return None
+    url = f"{host_url.rstrip('/')}/intake?dataset={dataset_id}"
+    return html.Div(
+        [
+            html.Span("Share this dataset: ", className="hc-field__label"),
+            html.A(url, href=url, id="intake-share-link", className="hc-mono hc-small"),
+            html.Div(
+                "Anyone who can reach this server and has the link can open it; nobody else sees it.",
+                className="hc-field__hint",
+            ),
+        ]
+    )
 
 
 def _problem_rows(problems: tuple[fc.Problem, ...]) -> list[dict[str, Any]]:
@@ -336,3 +355,17 @@ def upload_area(mb: str) -> dcc.Upload:
         style_active={},
         style_reject={},
     )
+
+
+def decode_upload(contents: str) -> bytes:
+    """Bytes of a ``dcc.Upload`` data URL (``data:<type>;base64,<data>``)."""
+    _, _, data = str(contents).partition(",")
+    try:
+        return base64.b64decode(data or contents, validate=False)
+    except (binascii.Error, ValueError) as err:
+        raise fc.InputError("the upload could not be decoded. Choose the file again.") from err
+
+
+def series_unit(table: fc.Table, series: str) -> str | None:
+    info = table.info.get(series)
+    return info.unit if info else None

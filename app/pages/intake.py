@@ -7,8 +7,6 @@ Component ids start with ``intake-``. The page writes ``dataset_id``, ``series``
 
 from __future__ import annotations
 
-import base64
-import binascii
 from collections.abc import Mapping
 from typing import Any
 
@@ -26,6 +24,7 @@ from dash import (
     html,
     no_update,
 )
+from flask import request
 
 import forecasting_core as fc
 from app.cache import cache, get_stationarity, resolve_transform
@@ -38,9 +37,12 @@ from app.intake_figures import (
 )
 from app.intake_views import (
     dataset_options,
+    decode_upload,
     problems_view,
     series_options,
     series_table_view,
+    series_unit,
+    share_note,
     stationarity_stats,
     summary_view,
     tests_view,
@@ -69,8 +71,14 @@ def _max_bytes() -> int:
     return int(current_app.extensions["haulcast"]["config"]["MAX_UPLOAD_BYTES"])
 
 
-def layout(**_query: Any) -> html.Div:
-    """The Intake page (rebuilt on every visit; the data comes from callbacks)."""
+def layout(dataset: str | None = None, **_query: Any) -> html.Div:
+    """The Intake page (rebuilt on every visit; the data comes from callbacks).
+
+    Parameters
+    ----------
+    dataset : str, optional
+        ``/intake?dataset=<id>``: a share link; the dataset joins this session's list.
+    """
     try:
         max_bytes = _max_bytes()
     except (RuntimeError, KeyError):
@@ -87,6 +95,7 @@ def layout(**_query: Any) -> html.Div:
             dcc.Store(id="intake-upload-payload"),
             dcc.Store(id="intake-upload-rejected"),
             dcc.Store(id="intake-max-bytes", data=max_bytes),
+            dcc.Store(id="intake-shared", data=dataset if isinstance(dataset, str) else None),
             html.Div(
                 [
                     section(
@@ -112,6 +121,7 @@ def layout(**_query: Any) -> html.Div:
                             className="hc-field",
                             style={"marginTop": "1rem"},
                         ),
+                        html.Div(id="intake-share", className="hc-share"),
                         id="intake-data-section",
                     ),
                     section(
@@ -255,15 +265,6 @@ clientside_callback(
 )
 
 
-def decode_upload(contents: str) -> bytes:
-    """Bytes of a ``dcc.Upload`` data URL (``data:<type>;base64,<data>``)."""
-    _, _, data = str(contents).partition(",")
-    try:
-        return base64.b64decode(data or contents, validate=False)
-    except (binascii.Error, ValueError) as err:
-        raise fc.InputError("the upload could not be decoded. Choose the file again.") from err
-
-
 @callback(
     Output(SELECTION_ID, "data", allow_duplicate=True),
     Output("intake-dataset", "options"),
@@ -272,15 +273,17 @@ def decode_upload(contents: str) -> bytes:
     Output("intake-series", "value"),
     Output("intake-transform", "value"),
     Output("intake-upload-status", "children"),
+    Output("intake-share", "children"),
     Input("intake-dataset", "value"),
     Input("intake-series", "value"),
     Input("intake-transform", "value"),
     Input("intake-upload-payload", "data"),
     Input("intake-upload-rejected", "data"),
     State(SELECTION_ID, "data"),
+    State("intake-shared", "data"),
     prevent_initial_call="initial_duplicate",
 )
-@guarded("reading the upload", outputs=7, alert_at=6)
+@guarded("reading the upload", outputs=8, alert_at=6)
 def sync_selection(
     dataset_value: str | None,
     series_value: str | None,
@@ -288,8 +291,9 @@ def sync_selection(
     payload: Mapping[str, Any] | None,
     rejected: Mapping[str, Any] | None,
     data: Mapping[str, Any] | None,
+    shared: str | None = None,
 ) -> list[Any]:
-    """Keep the pickers and ``hc-selection`` in step; save uploads."""
+    """Keep the pickers and ``hc-selection`` in step; save uploads; open share links."""
     store = get_store()
     trigger = ctx.triggered_id
     # On the page's first render Dash reports every input as triggered: only fill the pickers.
@@ -299,6 +303,25 @@ def sync_selection(
     sel = update_selection(data)
     status: Any = no_update
     write = trigger is not None
+    if initial and shared:
+        if store.exists(shared):
+            if not store.visible(shared, sel["uploads"]):
+                sel = update_selection(sel, uploads=[*sel["uploads"], shared])
+            sel = update_selection(sel, dataset_id=shared)
+            write = True
+            status = alert(
+                f"Opened the shared dataset {store.meta(shared).filename}; "
+                "it is now in this session's list.",
+                "info",
+                title="Shared with you",
+            )
+        else:
+            status = alert(
+                "The shared dataset was not found on this server: ask for the file itself "
+                "and upload it.",
+                "warning",
+                title="Link not found",
+            )
     if trigger == "intake-upload-payload" and payload:
         raw = decode_upload(payload.get("contents", ""))
         dataset_id = store.save(raw, str(payload.get("filename") or "upload.csv"))
@@ -340,6 +363,7 @@ def sync_selection(
         resolved["series"],
         resolved["transform"],
         status,
+        share_note(store, resolved["dataset_id"], request.host_url),
     ]
 
 
@@ -375,11 +399,6 @@ def show_table(data: Mapping[str, Any] | None) -> list[Any]:
 # ---------------------------------------------------------------------------------------------
 # Series and transform
 # ---------------------------------------------------------------------------------------------
-
-
-def _unit(table: fc.Table, series: str) -> str | None:
-    info = table.info.get(series)
-    return info.unit if info else None
 
 
 @callback(
@@ -420,7 +439,7 @@ def _series_figures(
     table = get_store().load_table(dataset_id)
     y = table.series[series]
     fig = series_figure(
-        y, y_title=value_axis_title(series, _unit(table, series)), title=f"{series} as read"
+        y, y_title=value_axis_title(series, series_unit(table, series)), title=f"{series} as read"
     )
     spec = resolve_transform(y, transform)
     z = fc.transform_series(y, spec)

@@ -294,7 +294,7 @@ def test_the_palette_matches_the_css_variables():
 
 
 def test_upload_contents_are_decoded_from_the_data_url():
-    from app.pages.intake import decode_upload
+    from app.intake_views import decode_upload
 
     raw = b"year,cod_t\n2000,1\n"
     # reference: the standard library's base64 encoder, as browsers write data URLs

@@ -2,7 +2,8 @@
 
 Each session uploads a file with a canary series name nobody else uses; the other sessions
 must never see it, not in the dataset picker, not in the series list, not in the top bar,
-and not by writing the other file's id into their own session store.
+and not by writing the other file's id into their own session store; only a share link that
+the uploader hands on opens it elsewhere.
 """
 
 from __future__ import annotations
@@ -35,7 +36,8 @@ def test_two_sessions_at_once_see_only_their_own_uploads(new_page, open_page, up
     open_page(bob, "/intake")
     alice_file = canary_csv("canary_alice_t", 400)
     upload_file(alice, "alice_landings.csv", alice_file)
-    upload_file(bob, "bob_landings.csv", canary_csv("canary_bob_t", 900))
+    bob_file = canary_csv("canary_bob_t", 900)
+    upload_file(bob, "bob_landings.csv", bob_file)
 
     expect(alice.locator("#intake-series-list")).to_contain_text("canary_alice_t")
     expect(bob.locator("#intake-series-list")).to_contain_text("canary_bob_t")
@@ -64,17 +66,26 @@ def test_two_sessions_at_once_see_only_their_own_uploads(new_page, open_page, up
     expect(alice.locator("#hc-context-dataset")).to_have_text("alice_landings.csv")
 
     # writing Alice's dataset id into Bob's session does not open it: the server falls back to the demo
-    alice_id = hashlib.sha256(
-        alice_file
-    ).hexdigest()  # ids are the sha256 of the file (hashlib as reference)
-    forged = {
-        "dataset_id": alice_id,
-        "series": "canary_alice_t",
-        "transform": "auto",
-        "uploads": [],
-    }
+    # ids are the sha256 of the file (hashlib as reference)
+    alice_id = hashlib.sha256(alice_file).hexdigest()
+    bob_id = hashlib.sha256(bob_file).hexdigest()
+    forged = {"dataset_id": alice_id, "series": "canary_alice_t", "uploads": [bob_id]}
     bob.evaluate("(v) => sessionStorage.setItem('hc-selection', v)", json.dumps(forged))
     bob.reload()
     expect(bob.locator("h1.hc-page__title")).to_have_text("Intake")
     expect(bob.locator("#hc-context-dataset")).to_contain_text("vellmouth_landings.csv")
     expect(bob.locator("#intake-series-list")).not_to_contain_text("canary_alice_t")
+
+    # ... but Alice can share it: her share link opens it in Bob's session
+    link = alice.locator("#intake-share-link")
+    expect(link).to_contain_text(alice_id)
+    bob.goto(link.get_attribute("href"))
+    expect(bob.locator("#intake-upload-status")).to_contain_text(
+        "Opened the shared dataset alice_landings.csv"
+    )
+    expect(bob.locator("#hc-context-dataset")).to_have_text("alice_landings.csv")
+    expect(bob.locator("#intake-series-list")).to_contain_text("canary_alice_t")
+    # and it stays in Bob's list next to his own upload
+    bob_choices = dataset_choices(bob)
+    assert any("alice_landings.csv" in t for t in bob_choices)
+    assert any("bob_landings.csv" in t for t in bob_choices)
