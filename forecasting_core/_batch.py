@@ -11,6 +11,7 @@ in file order whatever order the tasks finish in. A series that fails gives an e
 from __future__ import annotations
 
 import hashlib
+import math
 import os
 import platform
 from collections.abc import Callable, Mapping
@@ -105,6 +106,23 @@ def hindcast_summary(comparison: Comparison) -> dict[str, Any] | None:
     )
 
 
+def _better_benchmarks(comparison: Comparison) -> list[str]:
+    """Warnings for benchmarks other than the last value that beat the chosen model on MASE."""
+    h = comparison.hindcast
+    mine = h.score(comparison.best.label) if h is not None else None
+    if mine is None or not math.isfinite(mine.mase):
+        return []
+    out = []
+    for s in h.scores:
+        if s.kind == "benchmark" and s.model != "last value" and math.isfinite(s.mase):
+            if s.mase < mine.mase:
+                out.append(
+                    f"On the hindcast the {s.model} benchmark scored a lower MASE than "
+                    f"{mine.model} ({s.mase:.2f} vs {mine.mase:.2f})."
+                )
+    return out
+
+
 def forecast_record(
     comparison: Comparison,
     forecast: Forecast,
@@ -137,6 +155,7 @@ def forecast_record(
     h = comparison.hindcast
     if h is not None and h.verdict and "did not beat" in h.verdict and h.verdict not in warnings:
         warnings.append(h.verdict)
+    warnings.extend(w for w in _better_benchmarks(comparison) if w not in warnings)
     record = {
         "series": comparison.series_name,
         "observations": comparison.observations,

@@ -114,3 +114,24 @@ def test_an_unexpected_failure_stays_with_its_series(small_file, monkeypatch):
 def test_bad_batch_settings_say_what_is_allowed(small_file, kwargs, match):
     with pytest.raises(InputError, match=match):
         run_batch(small_file, **{"horizon": 2, **kwargs})
+
+
+def test_a_benchmark_that_beats_the_chosen_model_is_a_warning():
+    from types import SimpleNamespace
+
+    import pandas as pd
+
+    from forecasting_core._batch import _better_benchmarks
+    from forecasting_core._benchmarks import fit_benchmark
+    from forecasting_core._hindcast import run_hindcast
+
+    # White noise around 100 (seeded): the long-run mean must beat last value + drift.
+    rng = np.random.default_rng(3)
+    y = pd.Series(100 + rng.normal(0, 5, 40), index=pd.period_range("1986", periods=40, freq="Y"))
+    drift, mean = fit_benchmark(y, "drift"), fit_benchmark(y, "mean")
+    h = run_hindcast(y, [drift, mean], horizon=3)
+    notes = _better_benchmarks(SimpleNamespace(best=drift, hindcast=h))
+    assert len(notes) == 1
+    assert notes[0].startswith(
+        "On the hindcast the long-run mean benchmark scored a lower MASE than last value + drift ("
+    )
