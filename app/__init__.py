@@ -182,6 +182,12 @@ def _page_callbacks() -> tuple[tuple[Any, ...], tuple[tuple[str, Any], ...]]:
         page = dash.page_registry.get(full)
         if page is not None and page.get("layout") is None and hasattr(module, "layout"):
             page["layout"] = module.layout
+    dash.register_page(
+        "app.not_found_404",
+        path="/404",
+        title="Page not found \u00b7 Haulcast",
+        layout=_not_found_layout(),
+    )
     new_list = tuple(_dash_callback.GLOBAL_CALLBACK_LIST[before_list:])
     del _dash_callback.GLOBAL_CALLBACK_LIST[before_list:]
     new_map = tuple(
@@ -197,6 +203,26 @@ def _attach_pages(app: dash.Dash) -> None:
     for key, spec in callback_map:
         app.callback_map[key] = spec
     app._callback_list.extend(callbacks)  # noqa: SLF001 - see _page_callbacks
+
+
+def _not_found_layout() -> html.Div:
+    from app.ui import page_header
+
+    return html.Div(
+        [
+            page_header("Page not found", "There is no page at this address."),
+            html.P(
+                [
+                    "Start at ",
+                    dcc.Link("Intake", href="/intake"),
+                    " to bring in data, or go to the ",
+                    dcc.Link("Forecast Board", href="/board"),
+                    ".",
+                ]
+            ),
+        ],
+        className="hc-page",
+    )
 
 
 def _placeholder_layout(name: str, step: int) -> html.Div:

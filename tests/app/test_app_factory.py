@@ -78,6 +78,14 @@ def test_each_page_is_registered_at_its_route_in_order(client, module, path, nam
     assert client.get(path).status_code == 200
 
 
+def test_an_unknown_address_gets_our_not_found_page(client):
+    assert (
+        client.get("/no-such-page").status_code == 200
+    )  # Dash answers every path; the page says so
+    page = next(p for m, p in dash.page_registry.items() if m.endswith("not_found_404"))
+    assert page["title"] == "Page not found \u00b7 Haulcast"
+
+
 def test_root_redirects_to_intake_keeping_the_query(client):
     response = client.get("/?present=1")
     assert response.status_code == 302
