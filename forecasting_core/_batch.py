@@ -16,12 +16,21 @@ import os
 import platform
 from collections.abc import Callable, Mapping
 from concurrent.futures import ProcessPoolExecutor, as_completed
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
 import pandas as pd
 
-from forecasting_core._results import CAUTIONS, Comparison, Forecast, InputError, Table, _clean
+from forecasting_core._results import (
+    CAUTIONS,
+    Comparison,
+    Forecast,
+    InputError,
+    Problem,
+    Table,
+    _clean,
+)
 
 #: Band levels of every exported forecast (percent).
 LEVELS: tuple[int, ...] = (50, 80, 95)
@@ -307,17 +316,27 @@ def _task(name: str, y: pd.Series, horizon: int, options: dict[str, Any]) -> dic
         )  # fmt: skip
 
 
+def problem_text(p: Problem) -> str:
+    """One problem as plain text: "row 27, 2021, column 'cod_t': message"."""
+    where = ", ".join(
+        x
+        for x in (
+            f"row {p.row}" if p.row is not None else "",
+            p.time or "",
+            f"column {p.column!r}" if p.column is not None else "",
+        )
+        if x
+    )
+    return f"{where}: {p.message}" if where else p.message
+
+
 def unusable_message(table: Table, name: str) -> str:
     """Plain message for a series the file check marked unusable, naming rows and years."""
-    info = table.info[name]
-    parts = []
-    for p in info.problems:
-        if p.severity != "error":
-            continue
-        where = ", ".join(
-            x for x in (f"row {p.row}" if p.row is not None else "", p.time or "") if x
-        )
-        parts.append(f"{where}: {p.message}" if where else p.message)
+    parts = [
+        problem_text(replace(p, column=None))
+        for p in table.info[name].problems
+        if p.severity == "error"
+    ]
     detail = "; ".join(parts) if parts else "it has no usable values."
     return f"series {name!r} cannot be used: {detail}"
 

@@ -91,6 +91,13 @@ def _read(path: Any):
     return read_table(str(path))
 
 
+def _no_series(table) -> InputError:
+    from forecasting_core._batch import problem_text
+
+    found = "; ".join(problem_text(p) for p in table.errors) or "no series columns were found."
+    return InputError(f"the file {table.source!r} has no usable series: {found}")
+
+
 def _pick_series(table, name: Any):
     if name is None:
         raise InputError("--series must name one series of the file.")
@@ -101,7 +108,9 @@ def _pick_series(table, name: Any):
         from forecasting_core._batch import unusable_message
 
         raise InputError(unusable_message(table, name))
-    names = ", ".join(table.info) or "(none)"
+    if not table.info:
+        raise _no_series(table)
+    names = ", ".join(table.info)
     raise InputError(f"--series must be one of {names}. Got {name!r} instead.")
 
 
@@ -326,6 +335,8 @@ def _batch(args: Any) -> int:
             raise InputError(f"--workers must be a positive integer. Got {_opt(args, 'workers')!r} instead.")
     out_dir = _opt(args, "out")
     table = _read(_opt(args, "file"))
+    if not table.info:
+        raise _no_series(table)
 
     status: dict[str, str] = {}
 

@@ -199,3 +199,18 @@ def test_batch_writes_outputs_reports_progress_and_failures(tmp_path, capsys, mo
     assert rows[1][0].startswith("# Caution:")
     assert [r[0] for r in rows[4:]] == ["cod_t", "cod_t"]
     assert "Traceback" not in out + err
+
+
+@pytest.mark.parametrize("command", ["forecast", "batch"])
+def test_file_without_series_exits_2_naming_the_problem(tmp_path, capsys, command):
+    src = tmp_path / "words.csv"
+    src.write_text("year,cod_t\n1990,many\n1991,few\n", encoding="utf-8")
+    args = argparse.Namespace(
+        file=str(src), series="cod_t", horizon="3", order=None, seasonal=None, transform="auto",
+        no_constant=False, reference=None, json=False, csv=None, workers="1", out=None,
+    )  # fmt: skip
+    run = _cli_forecast if command == "forecast" else _cli_batch
+    assert run(args) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("error: ")
+    assert "words.csv" in err and "Traceback" not in err
