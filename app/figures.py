@@ -124,12 +124,38 @@ def _x_hover(frequency: str) -> str:
     )
 
 
+#: Haulcast's own small plotly template (much cheaper to apply than a built-in one).
+TEMPLATE = go.layout.Template(
+    layout={
+        "font": {"family": FONT_FAMILY, "size": 13, "color": COLORS["text"]},
+        "paper_bgcolor": "rgba(0,0,0,0)",
+        "plot_bgcolor": "#ffffff",
+        "colorway": [COLORS["model"], COLORS["history"], COLORS["benchmark"], COLORS["reference"]],
+        "xaxis": {
+            "gridcolor": COLORS["grid"],
+            "linecolor": COLORS["grid"],
+            "zeroline": False,
+            "automargin": True,
+            "ticks": "",
+        },
+        "yaxis": {
+            "gridcolor": COLORS["grid"],
+            "linecolor": COLORS["grid"],
+            "zeroline": False,
+            "automargin": True,
+            "ticks": "",
+        },
+        "hoverlabel": {"font": {"family": FONT_FAMILY}},
+    }
+)
+
+
 def _style(
     fig: go.Figure, *, title: str | None, y_title: str, frequency: str, height: int
 ) -> go.Figure:
     fig.update_layout(
         title={"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 15}} if title else None,
-        template="plotly_white",
+        template=TEMPLATE,
         font={"family": FONT_FAMILY, "size": 13, "color": COLORS["text"]},
         height=height,
         margin={"l": 64, "r": 24, "t": 48 if title else 24, "b": 48},
@@ -159,6 +185,7 @@ def blank_figure(height: int = 260) -> go.Figure:
     """An empty placeholder (no axes) shown until a result arrives."""
     fig = go.Figure()
     fig.update_layout(
+        template=TEMPLATE,
         height=height,
         paper_bgcolor="rgba(0,0,0,0)",
         plot_bgcolor="rgba(0,0,0,0)",
@@ -341,6 +368,7 @@ def prob_below_figure(forecast: Forecast, *, height: int = 240) -> go.Figure:
     table = forecast.table
     fig = go.Figure()
     if forecast.reference is None:
+        height = min(height, 90)
         fig.add_annotation(
             text="Enter a reference level to see the chance of falling below it.",
             showarrow=False,
