@@ -169,3 +169,23 @@ def test_unusable_benchmark_request_says_why(key, values, match):
 def test_steps_must_be_positive():
     with pytest.raises(InputError, match="steps must be a positive integer. Got 0 instead."):
         predict_benchmark(fit_benchmark(ANNUAL, "naive"), 0)
+
+
+@pytest.mark.parametrize(
+    ("key", "sd"),
+    [
+        # FPP3 5.5 by hand on ANNUAL (T = 5): sigma^2 5.5 (naive), 6 (drift), 4.3 (mean).
+        ("naive", math.sqrt(5.5) * np.sqrt([1, 2, 3])),
+        ("drift", math.sqrt(6.0) * np.sqrt(np.array([1, 2, 3]) * (1 + np.array([1, 2, 3]) / 5))),
+        ("mean", np.full(3, math.sqrt(4.3 * 1.2))),
+    ],
+)
+def test_published_band_widths_come_through_make_forecast(key, sd):
+    # 95% band = point -+ 1.96 sd (FPP3 5.5; scipy.stats.norm.ppf(0.975) = 1.959964).
+    from scipy.stats import norm
+
+    from forecasting_core import make_forecast
+
+    table = make_forecast(fit_benchmark(ANNUAL, key), horizon=3, levels=(80, 95)).table
+    np.testing.assert_allclose(table["hi95"] - table["lo95"], 2 * norm.ppf(0.975) * sd, rtol=1e-9)
+    np.testing.assert_allclose(table["hi80"] - table["lo80"], 2 * norm.ppf(0.9) * sd, rtol=1e-9)
