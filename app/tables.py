@@ -94,6 +94,33 @@ def _table_style(**extra: Any) -> dict[str, Any]:
     }
 
 
+def candidate_styles(picked: str | None) -> list[dict[str, Any]]:
+    """Row styles of the candidates table: rejected rows muted, the picked row tinted."""
+    styles: list[dict[str, Any]] = [
+        {
+            "if": {"filter_query": '{status} != "ok"'},
+            "color": PALETTE["muted"],
+            "fontStyle": "italic",
+        },
+        {
+            "if": {"state": "selected"},
+            "backgroundColor": "inherit",
+            "border": "none",
+            "borderBottom": f"1px solid {PALETTE['line']}",
+        },
+    ]
+    if picked:
+        quoted = picked.replace("\\", "\\\\").replace('"', '\\"')
+        styles.append(
+            {
+                "if": {"filter_query": f'{{id}} = "{quoted}"'},
+                "backgroundColor": PALETTE["foam"],
+                "fontWeight": 600,
+            }
+        )
+    return styles
+
+
 def candidates_table() -> dash_table.DataTable:
     columns = [
         {"name": "Model", "id": "model"},
@@ -115,19 +142,7 @@ def candidates_table() -> dash_table.DataTable:
         tooltip_delay=0,
         tooltip_duration=None,
         **_table_style(
-            style_data_conditional=[
-                {
-                    "if": {"filter_query": '{status} != "ok"'},
-                    "color": PALETTE["muted"],
-                    "fontStyle": "italic",
-                },
-                {
-                    "if": {"state": "selected"},
-                    "backgroundColor": PALETTE["foam"],
-                    "border": "none",
-                    "borderBottom": f"1px solid {PALETTE['line']}",
-                },
-            ],
+            style_data_conditional=candidate_styles(None),
         ),
     )
 

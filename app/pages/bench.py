@@ -369,7 +369,7 @@ def run(
 @callback(
     Output("bench-status", "children"),
     Output("bench-candidates", "data"),
-    Output("bench-candidates", "selected_row_ids"),
+    Output("bench-candidates", "selected_rows"),
     Output("bench-benchmarks", "children"),
     Output("bench-skill", "data"),
     Output("bench-verdict", "children"),
@@ -404,10 +404,12 @@ def render(request: Mapping[str, Any] | None) -> list[Any]:
         ],
     ]
     verdict = comparison.hindcast.verdict if comparison.hindcast else "No hindcast was run."
+    rows = tables.candidate_rows(comparison)
+    picked_at = [i for i, r in enumerate(rows) if r["id"] == picked.label and picked.ok]
     return [
         status,
-        tables.candidate_rows(comparison),
-        [picked.label] if picked.ok else [],
+        rows,
+        picked_at[:1],
         tables.benchmark_panel(comparison),
         tables.skill_rows(comparison),
         html.P(verdict),
@@ -426,19 +428,24 @@ def render(request: Mapping[str, Any] | None) -> list[Any]:
     Output("bench-picked", "children"),
     Output(SELECTION_ID, "data", allow_duplicate=True),
     Output("bench-alert", "children", allow_duplicate=True),
-    Input("bench-candidates", "selected_row_ids"),
+    Output("bench-candidates", "style_data_conditional"),
+    Input("bench-candidates", "selected_rows"),
+    State("bench-candidates", "data"),
     State("bench-request", "data"),
     State(SELECTION_ID, "data"),
     prevent_initial_call=True,
 )
-@guarded("showing the picked model", outputs=9, alert_at=8)
+@guarded("showing the picked model", outputs=10, alert_at=8)
 def pick(
-    row_ids: list[str] | None, request: Mapping[str, Any] | None, data: Mapping[str, Any] | None
+    selected: list[int] | None,
+    rows: list[dict[str, Any]] | None,
+    request: Mapping[str, Any] | None,
+    data: Mapping[str, Any] | None,
 ) -> list[Any]:
-    if not request or not row_ids:
+    if not request or not selected or not rows or selected[0] >= len(rows):
         raise PreventUpdate
     comparison = comparison_for(request)
-    label = row_ids[0]
+    label = rows[selected[0]]["id"]
     candidate = next((c for c in comparison.candidates if c.label == label), None)
     if candidate is None or not candidate.ok:
         why = candidate.reason if candidate is not None else "not part of this comparison"
@@ -447,7 +454,8 @@ def pick(
                 f"{label} cannot be used: {why}. Pick an accepted model.",
                 className="hc-alert hc-alert--warning",
                 role="alert",
-            )
+            ),
+            no_update,
         ]
     unit = _unit(request)
     if comparison.hindcast is not None:
@@ -490,6 +498,7 @@ def pick(
         picked,
         new_sel,
         None,
+        tables.candidate_styles(label),
     ]
 
 
