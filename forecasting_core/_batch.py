@@ -124,7 +124,7 @@ def _better_benchmarks(comparison: Comparison) -> list[str]:
     out = []
     for s in h.scores:
         if s.kind == "benchmark" and s.model != "last value" and math.isfinite(s.mase):
-            if s.mase < mine.mase:
+            if round(s.mase, 2) < round(mine.mase, 2):  # a difference the message can show
                 out.append(
                     f"On the hindcast the {s.model} benchmark scored a lower MASE than "
                     f"{mine.model} ({s.mase:.2f} vs {mine.mase:.2f})."
