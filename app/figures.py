@@ -158,16 +158,17 @@ def _style(
         template=TEMPLATE,
         font={"family": FONT_FAMILY, "size": 13, "color": COLORS["text"]},
         height=height,
-        margin={"l": 64, "r": 24, "t": 48 if title else 24, "b": 48},
+        margin={"l": 64, "r": 24, "t": 56, "b": 48},
         paper_bgcolor="rgba(0,0,0,0)",
         plot_bgcolor="#ffffff",
         hovermode="x unified",
+        # top left: the modebar (PNG button) sits top right
         legend={
             "orientation": "h",
             "yanchor": "bottom",
-            "y": 1.0,
-            "xanchor": "right",
-            "x": 1.0,
+            "y": 1.02,
+            "xanchor": "left",
+            "x": 0.0,
             "bgcolor": "rgba(255,255,255,0.6)",
         },
     )
@@ -370,7 +371,7 @@ def prob_below_figure(forecast: Forecast, *, height: int = 240) -> go.Figure:
     if forecast.reference is None:
         height = min(height, 90)
         fig.add_annotation(
-            text="Enter a reference level to see the chance of falling below it.",
+            text="No reference level set yet.",
             showarrow=False,
             x=0.5,
             y=0.5,

@@ -83,7 +83,7 @@ def test_prob_below_without_reference_explains_what_to_do(comparison):
     fcst = fc.make_forecast(comparison.best, horizon=3)
     fig = figures.prob_below_figure(fcst)
     assert len(fig.data) == 0
-    assert "reference level" in fig.layout.annotations[0].text
+    assert "No reference level" in fig.layout.annotations[0].text
 
 
 def test_hindcast_figure_has_one_path_per_origin(comparison, nile):
