@@ -350,18 +350,21 @@ def _register_shell_callbacks(app: dash.Dash) -> None:
         Output("hc-context-transform", "children"),
         Output("hc-context-model", "children"),
         Output("hc-global-alert", "children"),
+        Output("hc-context-dataset", "title"),
         Input(SELECTION_ID, "data"),
     )
-    @guarded("showing the current selection", outputs=5, alert_at=4)
+    @guarded("showing the current selection", outputs=6, alert_at=4)
     def show_context(data: Mapping[str, Any] | None) -> list[Any]:
         from app.store import get_store
 
         store = get_store()
         sel = resolve_selection(data, store)
+        title = None
         if sel["dataset_id"] is None:
             name: Any = "none loaded"
         else:
             meta = store.meta(sel["dataset_id"])
+            title = meta.filename + (" (demo data)" if meta.sample else " (your upload)")
             name = (
                 [meta.filename, html.Span(" demo", className="hc-tag")]
                 if meta.sample
@@ -373,6 +376,7 @@ def _register_shell_callbacks(app: dash.Dash) -> None:
             TRANSFORM_LABELS.get(sel["transform"], sel["transform"]),
             sel["model"] or "best by AICc",
             None,
+            title,
         ]
 
     @app.callback(

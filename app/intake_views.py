@@ -369,3 +369,12 @@ def decode_upload(contents: str) -> bytes:
 def series_unit(table: fc.Table, series: str) -> str | None:
     info = table.info.get(series)
     return info.unit if info else None
+
+
+def preview_title(spec: fc.TransformSpec) -> str:
+    """Title of the transform preview figure."""
+    if spec.name == "none":
+        return "Preview: no transform (the values as read)"
+    if spec.name == "boxcox" and spec.lam is not None:
+        return f"Preview: Box-Cox scale (\u03bb = {spec.lam:.2f})"
+    return f"Preview: {TRANSFORM_LABELS.get(spec.name, spec.name).lower()} scale"

@@ -38,6 +38,7 @@ from app.intake_figures import (
 from app.intake_views import (
     dataset_options,
     decode_upload,
+    preview_title,
     problems_view,
     series_options,
     series_table_view,
@@ -51,7 +52,7 @@ from app.intake_views import (
     upload_area,
     upload_message,
 )
-from app.state import SELECTION_ID, TRANSFORM_LABELS, resolve_selection, update_selection
+from app.state import SELECTION_ID, resolve_selection, update_selection
 from app.store import get_store
 from app.ui import (
     PALETTE,
@@ -448,7 +449,7 @@ def _series_figures(
     preview = series_figure(
         z,
         y_title=transform_axis_title(series, spec),
-        title=f"Preview: {TRANSFORM_LABELS.get(spec.name, spec.name).lower()} scale",
+        title=preview_title(spec),
         color=PALETTE["teal"],
         height=300,
     )

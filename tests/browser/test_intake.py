@@ -148,7 +148,7 @@ def test_transform_choice_updates_the_preview_and_goes_on_to_model_bench(page, o
     page.locator("#intake-transform").get_by_role("option", name=re.compile(r"^None")).click()
     expect(page.locator("#hc-context-transform")).to_have_text("None")
     expect(page.locator("#intake-transform-note")).to_contain_text("Using none")
-    expect(page.locator("#intake-transform-graph .gtitle")).to_contain_text("none scale")
+    expect(page.locator("#intake-transform-graph .gtitle")).to_contain_text("no transform")
     # the selection (kept in the browser session) goes with the link
     page.locator("#intake-go-bench").click()
     expect(page.locator("h1.hc-page__title")).to_have_text("Model Bench")
