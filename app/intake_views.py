@@ -57,7 +57,10 @@ def upload_message(store: Any, dataset_id: str) -> html.Div:
         f"{n_err} error{'s' if n_err != 1 else ''} and {n_warn} warning{'s' if n_warn != 1 else ''}."
     )
     kind = "ok" if usable and not n_err else ("warning" if usable else "error")
-    return alert(text, kind, title="Uploaded")
+    title = {"ok": "Uploaded", "warning": "Uploaded, with problems", "error": "Nothing usable"}[
+        kind
+    ]
+    return alert(text, kind, title=title)
 
 
 def share_note(store: Any, dataset_id: str | None, host_url: str) -> Any:
