@@ -66,19 +66,22 @@ def hindcast_sentence(comparison: Comparison | None, model: str) -> str:
     if mine is None:
         return f"{model} was not among the models replayed on past years."
     if naive is None or math.isnan(naive.mase) or math.isnan(mine.mase) or not naive.mase:
-        return f"Replayed on {n} past years, its forecasts missed by {mine.mae:,.3g} on average."
+        return (
+            f"Replayed from {n} past origins, its forecasts missed by {mine.mae:,.3g} on average."
+        )
     # MASE ratio: the same measure as the hindcast verdict on the Model Bench
     change = 1.0 - mine.mase / naive.mase
-    years = f"the last {n} years" if n != 1 else "the last year"
+    period = {"quarterly": "quarter", "monthly": "month"}.get(comparison.frequency, "year")
+    years = f"each of the last {n} {period}s" if n != 1 else f"the last {period}"
     if abs(change) < 0.02:
-        return f"Replayed on {years}, it did about as well as simply repeating the last observed value."
+        return f"Replayed from {years}, it did about as well as simply repeating the last observed value."
     if change > 0:
         return (
-            f"Replayed on {years}, its errors were {100 * change:.0f}% smaller than simply "
+            f"Replayed from {years}, its errors were {100 * change:.0f}% smaller than simply "
             "repeating the last observed value."
         )
     return (
-        f"Replayed on {years}, its errors were {100 * -change:.0f}% larger than simply "
+        f"Replayed from {years}, its errors were {100 * -change:.0f}% larger than simply "
         "repeating the last observed value, so treat it with care."
     )
 

@@ -18,6 +18,7 @@ import statsmodels.api as sm
 import forecasting_core as fc
 from app import figures
 from app.export import _comment_line, forecast_csv, neutralise_cell, report_html
+from app.wording import fmt_chance, fmt_value, forecast_summary
 
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 PLAIN_NUMBER = re.compile(r"^-?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
@@ -170,3 +171,38 @@ def test_report_escapes_a_script_in_the_series_name(forecast, comparison, nile):
     assert "<script>alert" not in page
     assert "&lt;script&gt;alert(&#x27;x&#x27;)&lt;/script&gt;" in page
     assert "<b>t</b>" not in page
+
+
+# -- the plain-language summary shared by the board and the report -------------------------------
+
+
+@pytest.mark.parametrize(
+    ("p", "text"),
+    [
+        (0.0, "less than 1%"),
+        (0.004, "less than 1%"),
+        (0.2349, "23%"),
+        (0.995, "more than 99%"),
+        (float("nan"), "n/a"),
+    ],
+)
+def test_chances_are_read_as_whole_percent(p, text):
+    assert fmt_chance(p) == text
+
+
+def test_summary_reads_the_forecast_table(forecast, comparison):
+    first = forecast.table.iloc[0]
+    sentences = forecast_summary(forecast, comparison, unit="10^8 m^3")
+    assert sentences[0].startswith(
+        f"For {first['time']}, the expected nile is {fmt_value(first['mean'], '10^8 m^3')}"
+    )
+    assert (
+        f"between {fmt_value(first['lo80'], '10^8 m^3')} and {fmt_value(first['hi80'], '10^8 m^3')}"
+        in sentences[1]
+    )
+    assert any("reference level of 800 10^8 m^3" in s for s in sentences)
+    assert sentences[-1].startswith(f"The forecast comes from {forecast.model}.")
+    # the hindcast sentence uses the same measure (MASE) as the Model Bench verdict
+    mine = comparison.hindcast.score(forecast.model).mase
+    naive = comparison.hindcast.score("last value").mase
+    assert f"{abs(100 * (1 - mine / naive)):.0f}%" in sentences[-1]

@@ -38,7 +38,7 @@ def test_board_shows_the_demo_forecast_with_bands_summary_and_cautions(
     summary = page.locator("#board-summary")
     expect(summary).to_contain_text("expected hake_t is")
     expect(summary).to_contain_text("80% chance")
-    expect(summary).to_contain_text("Replayed on")
+    expect(summary).to_contain_text("Replayed from each of the last")
     # fan chart: the bands and the median, the unit in the axis title
     fan = page.locator("#board-fan")
     for name in ("95% band", "80% band", "50% band", "Median forecast", "Observed"):
