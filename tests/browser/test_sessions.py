@@ -30,10 +30,13 @@ def dataset_choices(page) -> list[str]:
     return texts
 
 
-def test_two_sessions_at_once_see_only_their_own_uploads(new_page, open_page, upload_file):
-    alice, bob = new_page(), new_page()
-    open_page(alice, "/intake")
-    open_page(bob, "/intake")
+def test_two_sessions_at_once_see_only_their_own_uploads(new_page, open_page, settle, upload_file):
+    alice, bob, carol = new_page(), new_page(), new_page()
+    # the three load at the same time; then wait for each
+    for visitor in (alice, bob, carol):
+        open_page(visitor, "/intake", settle=False)
+    for visitor in (alice, bob, carol):
+        settle(visitor)
     alice_file = canary_csv("canary_alice_t", 400)
     upload_file(alice, "alice_landings.csv", alice_file)
     bob_file = canary_csv("canary_bob_t", 900)
@@ -54,9 +57,7 @@ def test_two_sessions_at_once_see_only_their_own_uploads(new_page, open_page, up
     assert any("vellmouth_landings.csv" in t for t in alice_choices)
     assert any("vellmouth_landings.csv" in t for t in bob_choices)
 
-    # a third visitor sees the demo only
-    carol = new_page()
-    open_page(carol, "/intake")
+    # a third visitor, there all along, sees the demo only
     carol_choices = dataset_choices(carol)
     assert not any("alice" in t or "bob" in t for t in carol_choices)
     expect(carol.locator("#hc-context-dataset")).to_contain_text("vellmouth_landings.csv")
