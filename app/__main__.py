@@ -55,19 +55,33 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(f"error: cannot use the data folder: {err}", file=sys.stderr)
         return 2
     host_for_url = "127.0.0.1" if args.host in ("0.0.0.0", "") else args.host
-    print(
-        f"Haulcast is running at http://{host_for_url}:{args.port}/  (data in {app.server.config['DATA_DIR']})",
-        flush=True,
+    banner = (
+        f"Haulcast is running at http://{host_for_url}:{args.port}/  "
+        f"(data in {app.server.config['DATA_DIR']})\nPress Ctrl+C to stop."
     )
-    print("Press Ctrl+C to stop.", flush=True)
     try:
-        from waitress import serve
+        from waitress import create_server
     except ImportError:  # pragma: no cover - waitress is a dependency; werkzeug as a fallback
         from werkzeug.serving import run_simple
 
+        print(banner, flush=True)
         run_simple(args.host, args.port, app.server, threaded=True)
-    else:
-        serve(app.server, host=args.host, port=args.port, threads=args.threads, ident="Haulcast")
+        return 0
+    try:
+        server = create_server(
+            app.server, host=args.host, port=args.port, threads=args.threads, ident="Haulcast"
+        )
+    except OSError as err:  # e.g. the port is taken
+        print(
+            f"error: cannot listen on {args.host}:{args.port}: {err.strerror or err}",
+            file=sys.stderr,
+        )
+        return 2
+    print(banner, flush=True)
+    try:
+        server.run()
+    except KeyboardInterrupt:
+        print("Stopped.", flush=True)
     return 0
 
 
