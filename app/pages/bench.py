@@ -13,7 +13,7 @@ from typing import Any
 
 import dash
 import plotly.graph_objects as go
-from dash import Input, Output, State, callback, dcc, html, no_update
+from dash import Input, Output, State, callback, ctx, dcc, html, no_update
 from dash.exceptions import PreventUpdate
 
 import forecasting_core as fc
@@ -279,6 +279,16 @@ _CONTROLS = [
 ]
 
 
+def _selection_request(data: Mapping[str, Any] | None) -> dict[str, Any]:
+    """The comparison request the session's selection stands for (bad settings: defaults)."""
+    sel = resolve_selection(data)
+    try:
+        sel["bench"] = bench_settings(sel.get("bench"))
+    except fc.InputError:
+        sel["bench"] = dict(DEFAULT_BENCH)
+    return sel
+
+
 def _request(sel: Mapping[str, Any]) -> dict[str, Any]:
     return {k: sel.get(k) for k in ("dataset_id", "series", "transform", "bench", "model")} | {
         "t": time.time()
@@ -288,19 +298,14 @@ def _request(sel: Mapping[str, Any]) -> dict[str, Any]:
 @callback(
     *[Output(c, "value") for c in _CONTROLS],
     Output("bench-seasonal", "options"),
-    Output("bench-request", "data"),
     Output("bench-alert", "children"),
     Input("bench-mount", "data"),
     State(SELECTION_ID, "data"),
 )
-@guarded("restoring the Model Bench settings", outputs=11, alert_at=10)
+@guarded("restoring the Model Bench settings", outputs=10, alert_at=9)
 def restore(_mount: Any, data: Mapping[str, Any] | None) -> list[Any]:
-    sel = resolve_selection(data)
-    try:
-        b = bench_settings(sel.get("bench"))
-    except fc.InputError:
-        b = dict(DEFAULT_BENCH)
-    sel["bench"] = b
+    sel = _selection_request(data)
+    b = sel["bench"]
     frequency = None
     if sel["dataset_id"] and sel["series"]:
         from app.store import get_store
@@ -324,7 +329,6 @@ def restore(_mount: Any, data: Mapping[str, Any] | None) -> list[Any]:
         b["origins"],
         b["horizon"],
         options,
-        _request(sel),
         None,
     ]
 
@@ -375,13 +379,18 @@ def run(
     Output("bench-verdict", "children"),
     Output("bench-timing", "children"),
     Output("bench-alert", "children", allow_duplicate=True),
+    Input("bench-mount", "data"),
     Input("bench-request", "data"),
-    prevent_initial_call=True,
+    State(SELECTION_ID, "data"),
+    prevent_initial_call="initial_duplicate",
 )
 @guarded("comparing models", outputs=8, alert_at=7)
-def render(request: Mapping[str, Any] | None) -> list[Any]:
-    if not request:
-        raise PreventUpdate
+def render(
+    _mount: Any, request: Mapping[str, Any] | None, data: Mapping[str, Any] | None
+) -> list[Any]:
+    # on arrival: the session's selection (no extra round trip); after "Run": the new request
+    if ctx.triggered_id != "bench-request" or not request:
+        request = _request(_selection_request(data))
     started = time.perf_counter()
     comparison = comparison_for(request)
     elapsed = time.perf_counter() - started
@@ -431,19 +440,17 @@ def render(request: Mapping[str, Any] | None) -> list[Any]:
     Output("bench-candidates", "style_data_conditional"),
     Input("bench-candidates", "selected_rows"),
     State("bench-candidates", "data"),
-    State("bench-request", "data"),
     State(SELECTION_ID, "data"),
     prevent_initial_call=True,
 )
 @guarded("showing the picked model", outputs=10, alert_at=8)
 def pick(
-    selected: list[int] | None,
-    rows: list[dict[str, Any]] | None,
-    request: Mapping[str, Any] | None,
-    data: Mapping[str, Any] | None,
+    selected: list[int] | None, rows: list[dict[str, Any]] | None, data: Mapping[str, Any] | None
 ) -> list[Any]:
-    if not request or not selected or not rows or selected[0] >= len(rows):
+    if not selected or not rows or selected[0] >= len(rows):
         raise PreventUpdate
+    # "Run" writes its settings into the selection, so the selection names this comparison
+    request = _selection_request(data)
     comparison = comparison_for(request)
     label = rows[selected[0]]["id"]
     candidate = next((c for c in comparison.candidates if c.label == label), None)

@@ -7,14 +7,23 @@ presentation button) switches to large type with the technical panels hidden.
 
 from __future__ import annotations
 
-import math
 import re
 from collections.abc import Mapping
 from typing import Any
 
 import dash
 import plotly.graph_objects as go
-from dash import Input, Output, State, callback, dcc, html, no_update
+from dash import (
+    ClientsideFunction,
+    Input,
+    Output,
+    State,
+    callback,
+    clientside_callback,
+    dcc,
+    html,
+    no_update,
+)
 from dash.exceptions import PreventUpdate
 
 import forecasting_core as fc
@@ -230,14 +239,13 @@ def layout(present: str | None = None, **_query: Any) -> html.Div:
 # ---------------------------------------------------------------------------------------------
 
 
-@callback(
+# In the browser (assets/bench_board.js, no round trip): the session's reference level.
+clientside_callback(
+    ClientsideFunction(namespace="haulcast_board", function_name="restoreReference"),
     Output("board-reference", "value"),
     Input("board-mount", "data"),
     State(SELECTION_ID, "data"),
 )
-def restore(_mount: Any, data: Mapping[str, Any] | None) -> Any:
-    ref = (data or {}).get("reference") if isinstance(data, Mapping) else None
-    return ref if isinstance(ref, int | float) and math.isfinite(ref) else None
 
 
 @callback(
