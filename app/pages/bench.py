@@ -7,6 +7,7 @@ The page keeps its settings in ``hc-selection["bench"]`` and the picked candidat
 
 from __future__ import annotations
 
+import functools
 import time
 from collections.abc import Mapping
 from typing import Any
@@ -148,13 +149,19 @@ def _progress() -> html.Div:
     )
 
 
+@functools.cache
+def _blank(height: int) -> dict[str, Any]:
+    """A placeholder figure as plain JSON (built once: layouts are built on every visit)."""
+    return figures.blank_figure(height).to_plotly_json()
+
+
 def _graph(graph_id: str, name: str, height: int = 260) -> dcc.Graph:
     return dcc.Graph(
         id=graph_id,
         config=figures.graph_config(name),
         className="hc-graph",
         style={"height": f"{height}px"},
-        figure=figures.blank_figure(height),
+        figure=_blank(height),
     )
 
 
@@ -355,6 +362,8 @@ def run(
     horizon: Any,
     data: Mapping[str, Any] | None,
 ) -> list[Any]:
+    if not _n:
+        raise PreventUpdate
     bench = bench_settings(
         {
             "search": search,

@@ -7,6 +7,7 @@ presentation button) switches to large type with the technical panels hidden.
 
 from __future__ import annotations
 
+import functools
 import re
 from collections.abc import Mapping
 from typing import Any
@@ -105,12 +106,18 @@ def _safe_name(text: str) -> str:
 # ---------------------------------------------------------------------------------------------
 
 
+@functools.cache
+def _blank(height: int) -> dict[str, Any]:
+    """A placeholder figure as plain JSON (built once: layouts are built on every visit)."""
+    return figures.blank_figure(height).to_plotly_json()
+
+
 def _graph(graph_id: str, name: str, height: int) -> dcc.Graph:
     return dcc.Graph(
         id=graph_id,
         config=figures.graph_config(name),
         className="hc-graph",
-        figure=figures.blank_figure(height),
+        figure=_blank(height),
     )
 
 
