@@ -79,6 +79,8 @@ def _table_style(**extra: Any) -> dict[str, Any]:
             "color": PALETTE["deep"],
             "fontWeight": 700,
             "borderBottom": f"2px solid {PALETTE['line']}",
+            "whiteSpace": "normal",
+            "height": "auto",
         },
         "style_cell_conditional": [
             *({"if": {"column_id": c}, "textAlign": "left"} for c in ("model", "status", "kind")),

@@ -176,8 +176,11 @@ def layout(**_query: Any) -> html.Div:
                         "Candidates",
                         tables.candidates_table(),
                         html.P(
-                            "Pick a row to carry that model to the Forecast Board; the best "
-                            "by AICc is picked to start with. Click a heading to sort.",
+                            [
+                                "Pick a row to carry that model to the Forecast Board; the best "
+                                "by AICc is picked to start with. Click a heading to sort. ",
+                                dcc.Link("Open the Forecast Board \u2192", href="/board"),
+                            ],
                             className="hc-figure-note",
                         ),
                         lead="ARIMA orders ranked by AICc; rejected fits are listed with the reason.",
