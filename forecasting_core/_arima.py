@@ -187,6 +187,74 @@ def _root_problem(res) -> str | None:
     return None
 
 
+def css_estimate(z: np.ndarray, order: tuple[int, int, int], constant: bool) -> np.ndarray | None:
+    """Conditional-sum-of-squares ARMA estimate of the differenced series (a screening start).
+
+    Minimises sum e_t^2 over t > p with e = theta(B)^-1 phi(B) (w - mu), w the d-th difference
+    of ``z`` and mu the constant (d = 0) or drift (d = 1), by scipy's least squares. Returns
+    the parameters in statsmodels' order (const/drift, ar, ma; sigma2 concentrated out), or
+    None when ``z`` has gaps or the estimate is not stationary and invertible.
+    """
+    from scipy.optimize import least_squares
+    from scipy.signal import lfilter
+
+    p, d, q = order
+    if not np.all(np.isfinite(z)):
+        return None
+    w = np.diff(z, n=d) if d else np.asarray(z, dtype=float)
+    if len(w) <= p + q + 3:
+        return None
+    mu0 = float(w.mean()) if constant else 0.0
+    scale = float(np.std(w)) or 1.0
+
+    k = 1 if constant else 0
+    b = np.ones(p + 1)
+    a = np.ones(q + 1)
+    ws = w / scale
+
+    def resid(theta: np.ndarray) -> np.ndarray:
+        b[1:] = -theta[k : k + p]
+        a[1:] = theta[k + p :]
+        with np.errstate(all="ignore"):
+            e = lfilter(b, a, ws - theta[0] if constant else ws)[p:]
+        return np.where(np.isfinite(e), e, 1e6)
+
+    x0 = np.r_[[mu0 / scale] if constant else [], np.zeros(p + q)]
+    if x0.size == 0:
+        return np.zeros(0)
+    try:
+        sol = least_squares(resid, x0, method="lm", max_nfev=8 * (x0.size + 1), ftol=1e-6, xtol=1e-6)
+    except Exception:  # noqa: BLE001 - a failed screen falls back to the exact fit
+        return None
+    est = np.array(sol.x, dtype=float)
+    if not np.all(np.isfinite(est)):
+        return None
+    est[k : k + p] = -_outside(-est[k : k + p])
+    est[k + p :] = _outside(est[k + p :])
+    if constant:
+        est[0] *= scale
+    return est
+
+
+def _outside(coefs: np.ndarray, limit: float = 1.02) -> np.ndarray:
+    """Lag-polynomial coefficients (1 + c1 z + ...) with every root moved to |z| >= limit.
+
+    A root inside is reflected to 1 / conj(root) (same autocorrelations for an MA part)
+    and pushed out to ``limit``; the screening start is then admissible for statsmodels.
+    """
+    if coefs.size == 0:
+        return coefs
+    roots = np.roots(np.r_[1.0, coefs][::-1])
+    if roots.size == 0 or np.all(np.abs(roots) >= limit):
+        return coefs
+    mod = np.abs(roots)
+    roots = np.where(mod < 1.0, 1.0 / np.conj(roots), roots)
+    mod = np.abs(roots)
+    roots = np.where(mod < limit, roots * (limit / mod), roots)
+    poly = np.real(np.poly(1.0 / roots))  # prod(1 - z / r) up to scale, highest power first
+    return np.asarray(poly[1:], dtype=float)
+
+
 def fit_order(
     y: pd.Series,
     order: tuple[int, int, int],
@@ -197,6 +265,7 @@ def fit_order(
     start_params: Mapping[str, float] | None = None,
     maxiter: int = FULL_MAXITER,
     factr: float | None = None,
+    screen: bool = False,
 ) -> Candidate:
     """Fit one ARIMA order by exact Gaussian maximum likelihood; never raises for a fit problem.
 
@@ -220,6 +289,11 @@ def fit_order(
         L-BFGS iteration cap; a fit that stops at the cap is rejected ("no convergence").
     factr : float, optional
         L-BFGS tolerance factor (scipy's ``factr``); looser values are used for screening.
+    screen : bool
+        Screening only: estimate by conditional least squares (:func:`css_estimate`) and
+        evaluate the exact likelihood there, without maximising it (the AICc is then an upper
+        bound of the order's best). Falls back to a loose exact fit with missing values,
+        seasonal terms, or a non-stationary or non-invertible least-squares estimate.
 
     Returns
     -------
@@ -263,13 +337,19 @@ def fit_order(
             start = None
             if start_params:
                 start = _start_vector(model, names, z, start_params, period)
-            res = model.fit(start_params=start, cov_type="none", method_kwargs=fit_kw)
+            css = css_estimate(z, order, constant) if screen and seasonal_order is None and "sigma2" not in names else None
+            if css is not None:
+                res = model.filter(css)
+            else:
+                if screen:
+                    fit_kw.update(maxiter=SCREEN_MAXITER, maxfun=15 * SCREEN_MAXITER, factr=SCREEN_FACTR)
+                res = model.fit(start_params=start, cov_type="none", method_kwargs=fit_kw)
     except Exception as exc:  # noqa: BLE001 - any statsmodels/numpy failure becomes a reason
         return _rejected(y, order, seasonal_order, constant, spec, f"fit failed: {type(exc).__name__}: {exc}", nobs=nobs)
     llf = float(res.llf)
     if not math.isfinite(llf):
         return _rejected(y, order, seasonal_order, constant, spec, "fit failed: the likelihood is not finite", k, nobs)
-    retvals = res.mle_retvals or {}
+    retvals = getattr(res, "mle_retvals", None) or {}
     converged = bool(retvals.get("converged", True))
     gopt = retvals.get("gopt")
     if not converged and gopt is not None and np.size(gopt) and np.max(np.abs(gopt)) < 1e-3:

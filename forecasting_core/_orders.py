@@ -30,7 +30,7 @@ from dataclasses import replace
 import numpy as np
 import pandas as pd
 
-from forecasting_core._arima import SCREEN_FACTR, SCREEN_MAXITER, fit_order, model_label
+from forecasting_core._arima import fit_order, model_label
 from forecasting_core._results import Candidate, TransformSpec
 
 __all__ = ["constant_allowed", "exhaustive_search", "grid", "rank", "stepwise_search"]
@@ -54,7 +54,7 @@ def _run_chain(task: tuple[pd.Series, TransformSpec, list[Spec]]) -> list[Candid
     out: list[Candidate] = []
     start: Mapping[str, float] | None = None
     for order, seasonal, constant in chain:
-        c = fit_order(y, order, seasonal, constant, spec, start_params=start, maxiter=SCREEN_MAXITER, factr=SCREEN_FACTR)
+        c = fit_order(y, order, seasonal, constant, spec, start_params=start, screen=True)
         if c.ok:
             start = c.params
         out.append(c)
