@@ -158,15 +158,15 @@ def _style(
         template=TEMPLATE,
         font={"family": FONT_FAMILY, "size": 13, "color": COLORS["text"]},
         height=height,
-        margin={"l": 64, "r": 24, "t": 56, "b": 48},
+        margin={"l": 64, "r": 24, "t": 48 if title else 32, "b": 48},
         paper_bgcolor="rgba(0,0,0,0)",
         plot_bgcolor="#ffffff",
         hovermode="x unified",
-        # top left: the modebar (PNG button) sits top right
+        # below the plot: the modebar (PNG button) sits top right
         legend={
             "orientation": "h",
-            "yanchor": "bottom",
-            "y": 1.02,
+            "yanchor": "top",
+            "y": -0.2,
             "xanchor": "left",
             "x": 0.0,
             "bgcolor": "rgba(255,255,255,0.6)",
