@@ -36,7 +36,9 @@ def _int_setting(
     if value is None or value == "":
         if allow_none:
             return None
-        raise fc.InputError(f"{name} must be an integer from {lo} to {hi}. Got nothing instead.")
+        raise fc.InputError(
+            f"{name} must be an integer from {lo} to {hi}. Got a blank or out-of-range value instead."
+        )
     try:
         number = float(value)
     except (TypeError, ValueError):

@@ -70,6 +70,15 @@ def test_running_a_comparison_shows_candidates_benchmarks_and_hindcast(
     expect(candidates.locator("tbody")).to_contain_text("ARIMA(")
     screenshot(page, "bench")
 
+    # a setting out of range: a plain message on the page, the results stay
+    page.locator("#bench-max-p").fill("7")
+    page.locator("#bench-max-p").press("Tab")
+    page.locator("#bench-run").click()
+    expect(page.locator("#bench-alert [role=alert]")).to_contain_text(
+        "Largest AR order p must be an integer from 0 to 5."
+    )
+    expect(candidates.locator("tbody")).to_contain_text("ARIMA(")
+
 
 def test_picking_a_model_carries_it_to_the_board(page, open_page, settle):
     open_page(page, "/bench", settle=False)
