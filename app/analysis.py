@@ -92,14 +92,19 @@ def compare_kwargs(bench: Mapping[str, Any], transform: str) -> dict[str, Any]:
     }
 
 
-def comparison_for(sel: Mapping[str, Any]) -> fc.Comparison:
-    """The memoized comparison for a resolved selection (see :func:`app.state.resolve_selection`)."""
+def comparison_key(sel: Mapping[str, Any]) -> tuple[str, str, str]:
+    """(dataset id, series, settings JSON): what the memoized comparison is keyed on."""
     if not sel.get("dataset_id") or not sel.get("series"):
         raise fc.InputError(
             "a dataset with at least one usable series must be chosen on Intake first."
         )
     kwargs = compare_kwargs(sel.get("bench") or {}, sel.get("transform") or "auto")
-    return get_comparison(sel["dataset_id"], sel["series"], settings_json(kwargs))
+    return str(sel["dataset_id"]), str(sel["series"]), settings_json(kwargs)
+
+
+def comparison_for(sel: Mapping[str, Any]) -> fc.Comparison:
+    """The memoized comparison for a resolved selection (see :func:`app.state.resolve_selection`)."""
+    return get_comparison(*comparison_key(sel))
 
 
 def chosen_candidate(comparison: fc.Comparison, label: str | None) -> fc.Candidate:

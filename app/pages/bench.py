@@ -13,7 +13,6 @@ from collections.abc import Mapping
 from typing import Any
 
 import dash
-import plotly.graph_objects as go
 from dash import Input, Output, State, callback, ctx, dcc, html, no_update
 from dash.exceptions import PreventUpdate
 
@@ -27,7 +26,9 @@ from app.analysis import (
     changed_selection,
     chosen_candidate,
     comparison_for,
+    comparison_key,
 )
+from app.cache import cache, get_comparison
 from app.state import (
     SELECTION_ID,
     TRANSFORM_LABELS,
@@ -476,26 +477,9 @@ def pick(
             ),
             no_update,
         ]
-    unit = _unit(request)
-    if comparison.hindcast is not None:
-        shown = label if comparison.hindcast.score(label) else comparison.best.label
-        hc_fig = figures.hindcast_figure(
-            comparison.hindcast,
-            candidate.series,
-            model=shown,
-            unit=unit,
-            series_name=comparison.series_name,
-        )
-        skill_fig = figures.skill_figure(comparison.hindcast)
-    else:
-        hc_fig = skill_fig = go.Figure()
-    report = (
-        comparison.diagnostics
-        if (comparison.diagnostics is not None and comparison.diagnostics.model == label)
-        else fc.check_residuals(candidate)
-    )
-    ljung = [html.P([html.Strong(f"{label}: "), report.verdict])]
-    if comparison.hindcast is not None and comparison.hindcast.score(label) is None:
+    panels = _panels(*comparison_key(request), label, fc.__version__)
+    ljung = [html.P([html.Strong(f"{label}: "), panels["verdict"]])]
+    if not panels["replayed"]:
         ljung.append(
             html.P(
                 f"{label} was not replayed on the hindcast (only the best three are); "
@@ -508,17 +492,50 @@ def pick(
     new_sel = no_update if sel.get("model") == stored else changed_selection(data, model=stored)
     picked = f"Forecast Board will use {label}" + (" (best by AICc)." if stored is None else ".")
     return [
-        hc_fig,
-        skill_fig,
-        figures.residuals_figure(report),
-        figures.residual_acf_figure(report),
-        figures.qq_figure(report),
+        *panels["figures"],
         ljung,
         picked,
         new_sel,
         None,
         tables.candidate_styles(label),
     ]
+
+
+@cache.memoize()
+def _panels(dataset_id: str, series: str, settings: str, label: str, core_version: str) -> dict:
+    """Hindcast and residual figures (as JSON) for one accepted candidate, memoized."""
+    comparison = get_comparison(dataset_id, series, settings)
+    candidate = comparison.candidate(label)
+    unit = _unit({"dataset_id": dataset_id, "series": series})
+    replayed = comparison.hindcast is not None and comparison.hindcast.score(label) is not None
+    if comparison.hindcast is not None:
+        hc_fig = figures.hindcast_figure(
+            comparison.hindcast,
+            candidate.series,
+            model=label if replayed else comparison.best.label,
+            unit=unit,
+            series_name=comparison.series_name,
+        )
+        skill_fig = figures.skill_figure(comparison.hindcast)
+    else:
+        hc_fig = skill_fig = figures.blank_figure(260)
+    report = (
+        comparison.diagnostics
+        if (comparison.diagnostics is not None and comparison.diagnostics.model == label)
+        else fc.check_residuals(candidate)
+    )
+    figs = [
+        hc_fig,
+        skill_fig,
+        figures.residuals_figure(report),
+        figures.residual_acf_figure(report),
+        figures.qq_figure(report),
+    ]
+    return {
+        "figures": [f.to_plotly_json() for f in figs],
+        "verdict": report.verdict,
+        "replayed": replayed,
+    }
 
 
 def _unit(request: Mapping[str, Any]) -> str | None:

@@ -29,7 +29,8 @@ from dash.exceptions import PreventUpdate
 
 import forecasting_core as fc
 from app import export, figures, tables, wording
-from app.analysis import board_state, changed_selection, parse_reference
+from app.analysis import LEVELS, board_state, changed_selection, comparison_key, parse_reference
+from app.cache import cache, get_comparison
 from app.state import SELECTION_ID
 from app.ui import caution_box, fmt_number, guarded, html_table, page_header, section
 
@@ -65,6 +66,39 @@ def _prob(state: Mapping[str, Any], present: bool) -> go.Figure:
     if present:
         fig.update_layout(font={"size": 18})
     return fig
+
+
+def _figures(state: Mapping[str, Any], present: bool) -> list[dict[str, Any]]:
+    """Fan chart and chance-below chart as JSON, memoized on what they show."""
+    forecast = state["forecast"]
+    return _figures_memo(
+        *comparison_key(state["selection"]),
+        state["candidate"].label,
+        forecast.horizon,
+        forecast.reference,
+        present,
+        fc.__version__,
+    )
+
+
+@cache.memoize()
+def _figures_memo(
+    dataset_id: str,
+    series: str,
+    settings: str,
+    label: str,
+    horizon: int,
+    reference: float | None,
+    present: bool,
+    core_version: str,
+) -> list[dict[str, Any]]:
+    from app.store import get_store
+
+    candidate = get_comparison(dataset_id, series, settings).candidate(label)
+    forecast = fc.make_forecast(candidate, horizon=horizon, levels=LEVELS, reference=reference)
+    info = get_store().load_table(dataset_id).info.get(series)
+    state = {"forecast": forecast, "candidate": candidate, "unit": info.unit if info else None}
+    return [_fan(state, present).to_plotly_json(), _prob(state, present).to_plotly_json()]
 
 
 def _details(state: Mapping[str, Any]) -> list[Any]:
@@ -298,8 +332,7 @@ def render(reference: Any, present: bool | None, data: Mapping[str, Any] | None)
     return [
         [html.P(s) for s in sentences],
         model,
-        _fan(state, bool(present)),
-        _prob(state, bool(present)),
+        *_figures(state, bool(present)),
         tables.forecast_table(forecast, state["unit"]),
         _details(state),
         None,
