@@ -187,7 +187,9 @@ def _root_problem(res) -> str | None:
     return None
 
 
-def css_estimate(z: np.ndarray, order: tuple[int, int, int], constant: bool) -> np.ndarray | None:
+def css_estimate(
+    z: np.ndarray, order: tuple[int, int, int], constant: bool
+) -> np.ndarray | None:
     """Conditional-sum-of-squares ARMA estimate of the differenced series (a screening start).
 
     Minimises sum e_t^2 over t > p with e = theta(B)^-1 phi(B) (w - mu), w the d-th difference
@@ -339,7 +341,7 @@ def fit_order(
                 start = _start_vector(model, names, z, start_params, period)
             css = css_estimate(z, order, constant) if screen and seasonal_order is None and "sigma2" not in names else None
             if css is not None:
-                res = model.filter(css)
+                res = model.filter(css)  # exact likelihood at the least-squares estimate
             else:
                 if screen:
                     fit_kw.update(maxiter=SCREEN_MAXITER, maxfun=15 * SCREEN_MAXITER, factr=SCREEN_FACTR)
@@ -365,7 +367,7 @@ def fit_order(
     aic = -2.0 * llf + 2.0 * k
     aicc = aic + 2.0 * k * (k + 1) / (nobs - k - 1)
     bic = -2.0 * llf + k * math.log(nobs)
-    if not converged:
+    if not converged and not screen:
         # the last iterate is kept (params, likelihood) so that a longer fit can resume from it
         return replace(
             _rejected(y, order, seasonal_order, constant, spec, f"no convergence after {iterations} iterations", k, nobs),

@@ -2,15 +2,17 @@
 
 The exhaustive search fits every order of the grid in two passes:
 
-1. **Screening.** Orders are fitted in chains (one chain per constant choice, seasonal part
-   and AR order ``p``, with ``q`` rising); each fit is warm-started from the previous order of
-   its chain (the new MA term starts at zero, so the start is the neighbour's optimum) and
-   stopped with a loose L-BFGS tolerance.
+1. **Screening.** Every order is estimated by conditional least squares (fast, in scipy)
+   and the exact Gaussian likelihood is evaluated at that estimate (one Kalman filter pass);
+   that AICc is an upper bound of the order's best. With missing values or seasonal terms
+   the screen is instead a loosely converged exact fit, warm-started along chains (one chain
+   per constant choice, seasonal part and AR order ``p``, with ``q`` rising).
 2. **Full fit.** Every screened order within ``REFINE_MARGIN`` AICc of the best screened one
-   (and every order whose screening did not converge) is fitted to full convergence from its
-   screened estimate; the best few are also refitted from statsmodels' own starting values,
-   keeping the higher likelihood, so that a warm start never traps the winner in a poorer
-   local optimum.
+   is fitted to full convergence (exact ML) from its screened estimate; the best few are
+   also refitted from statsmodels' own starting values, keeping the higher likelihood, so
+   that a poor start never traps the winner in a worse local optimum. Orders further behind
+   keep their screening values (an exact likelihood at a non-optimal estimate: their AICc
+   may be slightly too high, never too low).
 
 Chains and full fits are independent tasks, so ``workers > 1`` spreads them over processes
 and the result is identical whatever the number of workers.
@@ -122,11 +124,11 @@ def exhaustive_search(
     mapper, close = _mapper(workers)
     try:
         screened = [c for chain in mapper(_run_chain, [(y, spec, ch) for ch in chains]) for c in chain]
-        ok = [c for c in screened if c.ok]
-        best = min((c.aicc for c in ok), default=math.inf)
-        # full fits: promising converged screens, and unconverged ones whose last iterate
-        # (an upper bound of the order's best AICc) is already promising
-        todo = [i for i, c in enumerate(screened) if c.params and c.aicc <= best + REFINE_MARGIN]
+        score = [c.aicc if c.params else math.inf for c in screened]
+        best = min(score, default=math.inf)
+        # full fits: promising screens, including unconverged loose fits whose last iterate
+        # is already promising
+        todo = [i for i, c in enumerate(screened) if c.params and score[i] <= best + REFINE_MARGIN]
         tasks = [(y, spec, (screened[i].order, screened[i].seasonal_order, screened[i].constant), screened[i].params) for i in todo]
         full = mapper(_run_full, tasks)
         results = list(screened)
