@@ -146,6 +146,22 @@ def _blank(height: int) -> dict[str, Any]:
     return figures.blank_figure(height).to_plotly_json()
 
 
+def _progress() -> html.Div:
+    return html.Div(
+        [
+            html.Div(html.Div(className="bench-progress__bar"), className="bench-progress__track"),
+            html.P(
+                "Preparing the forecast. The first time for a series or a setting this runs the "
+                "model comparison (search and hindcast), which takes a moment\u2026",
+                className="bench-progress__text",
+            ),
+        ],
+        className="bench-progress",
+        role="progressbar",
+        **{"aria-label": "Forecast being prepared"},
+    )
+
+
 def _graph(graph_id: str, name: str, height: int) -> dcc.Graph:
     return dcc.Graph(
         id=graph_id,
@@ -238,8 +254,9 @@ def layout(present: str | None = None, **_query: Any) -> html.Div:
                         lead="What produced these bands.",
                     ),
                 ],
-                type="circle",
+                custom_spinner=_progress(),
                 delay_show=150,
+                overlay_style={"visibility": "visible", "opacity": 0.35},
             ),
             section(
                 "Export",
