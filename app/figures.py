@@ -447,9 +447,10 @@ def hindcast_figure(
     model = model or (hindcast.scores[0].model if hindcast.scores else None)
     start = None
     if hindcast.origins:
-        # Show some context before the first origin.
-        per_year = {"annual": 1, "quarterly": 4, "monthly": 12}[frequency]
-        start = max(0, len(history) - (len(hindcast.origins) + hindcast.horizon + 8) * per_year)
+        # Origins and horizon are periods; show some context before the first origin
+        # (8 years of annual data, 3 years of quarterly or monthly data).
+        context = {"annual": 8, "quarterly": 12, "monthly": 36}[frequency]
+        start = max(0, len(history) - (len(hindcast.origins) + hindcast.horizon + context))
     hist = history.iloc[start:] if start else history
     fig = go.Figure()
     fig.add_trace(

@@ -233,7 +233,7 @@ def layout(present: str | None = None, **_query: Any) -> html.Div:
                                             className="hc-input",
                                         ),
                                         html.Span(
-                                            "The chance that each year ahead falls below it.",
+                                            "The chance that each period ahead falls below it.",
                                             className="hc-field__hint",
                                         ),
                                     ],
