@@ -23,6 +23,10 @@ from scipy import stats
 
 from forecasting_core import Comparison, Forecast, Hindcast, ResidualReport
 
+#: Part of the cache key of memoized figures: change it whenever the figures' look changes,
+#: so a server upgrade never serves figures drawn by older code.
+STYLE = "2"
+
 #: Colours used by the figures (hex strings; bands use ``rgba`` of ``model``).
 COLORS: dict[str, str] = {
     "history": "#1e2b36",

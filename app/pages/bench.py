@@ -477,7 +477,7 @@ def pick(
             ),
             no_update,
         ]
-    panels = _panels(*comparison_key(request), label, fc.__version__)
+    panels = _panels(*comparison_key(request), label, f"{fc.__version__}+{figures.STYLE}")
     ljung = [html.P([html.Strong(f"{label}: "), panels["verdict"]])]
     if not panels["replayed"]:
         ljung.append(

@@ -77,7 +77,7 @@ def _figures(state: Mapping[str, Any], present: bool) -> list[dict[str, Any]]:
         forecast.horizon,
         forecast.reference,
         present,
-        fc.__version__,
+        f"{fc.__version__}+{figures.STYLE}",
     )
 
 
