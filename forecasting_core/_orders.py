@@ -41,6 +41,9 @@ __all__ = ["constant_allowed", "exhaustive_search", "grid", "rank", "stepwise_se
 REFINE_MARGIN = 6.0
 #: The best few after the full fit are also refitted from statsmodels' default start.
 COLD_CHECK = 3
+#: The same two numbers when the compiled exact likelihood did the screening.
+FAST_REFINE_MARGIN = 3.0
+FAST_COLD_CHECK = 2
 
 Spec = tuple[tuple[int, int, int], tuple[int, int, int, int] | None, bool]
 
@@ -117,24 +120,133 @@ def grid(
     return chains
 
 
+def fast_screen_usable(y: pd.Series, spec: TransformSpec, chains: list[list[Spec]]) -> bool:
+    """The compiled screen applies: numba is there, and differencing hides no gap.
+
+    With d + D > 0 a missing value also hides its neighbours' differences, so the compiled
+    likelihood of a gappy differenced series would rank orders on less data than the exact
+    state-space likelihood uses; such series keep the statsmodels screen.
+    """
+    from forecasting_core import _fastarma
+
+    if not _fastarma._HAVE_NUMBA or not chains or not chains[0]:
+        return False
+    (_, d, _), seasonal, _ = chains[0][0]
+    big_d = seasonal[1] if seasonal else 0
+    return d + big_d == 0 or bool(np.isfinite(np.asarray(y, dtype=float)).all())
+
+
+def _fast_candidates(y: pd.Series, spec: TransformSpec, specs: list[Spec]) -> list[Candidate]:
+    """Screening candidates from the compiled exact likelihood (statsmodels refits the best)."""
+    from forecasting_core import _fastarma
+    from forecasting_core._arima import ROOT_LIMIT, _rejected, transformed_values
+
+    z = transformed_values(y, spec)
+    screened = _fastarma.screen_specs(z, specs)
+    seen = int(np.isfinite(z).sum())
+    out = []
+    for order, seasonal, constant in specs:
+        aicc, params, converged = screened[(order, seasonal, constant)]
+        m = seasonal[3] if seasonal else 1
+        nobs = seen - order[1] - (seasonal[1] * m if seasonal else 0)
+        k = order[0] + order[2] + (seasonal[0] + seasonal[2] if seasonal else 0) + int(constant) + 1
+        ar = tuple(params[f"ar.L{i}"] for i in range(1, order[0] + 1))
+        ma = tuple(params[f"ma.L{j}"] for j in range(1, order[2] + 1))
+        sar = tuple(params[f"ar.S.L{m * i}"] for i in range(1, (seasonal[0] if seasonal else 0) + 1))
+        sma = tuple(params[f"ma.S.L{m * j}"] for j in range(1, (seasonal[2] if seasonal else 0) + 1))
+        if not math.isfinite(aicc) or nobs - k - 1 <= 0:
+            out.append(_rejected(y, order, seasonal, constant, spec, f"too few observations ({nobs}) for {k} parameters", k, nobs))
+            continue
+        loglik = -0.5 * (aicc - 2.0 * k * (k + 1) / (nobs - k - 1) - 2.0 * k)
+        cand = Candidate(
+            order=order,
+            seasonal_order=seasonal,
+            constant=constant,
+            label=model_label(order, seasonal, constant),
+            status="ok",
+            reason=None,
+            aicc=aicc,
+            aic=-2.0 * loglik + 2.0 * k,
+            bic=-2.0 * loglik + k * math.log(nobs),
+            loglik=loglik,
+            n_params=k,
+            nobs=nobs,
+            params=params,
+            ar=ar,
+            ma=ma,
+            seasonal_ar=sar,
+            seasonal_ma=sma,
+            sigma2=params["sigma2"],
+            transform=spec,
+            series=y,
+        )
+        worst = _nearest_root(ar, ma, sar, sma, m)
+        if worst is not None and worst[1] < ROOT_LIMIT:
+            kind, modulus = worst
+            word = "non-stationary" if kind == "AR" else "non-invertible"
+            cand = replace(
+                cand,
+                status="rejected",
+                reason=f"{word}: an {kind} root has modulus {modulus:.4f}, within {ROOT_LIMIT} of the unit circle",
+            )
+        elif not converged:
+            cand = replace(cand, status="rejected", reason="no convergence in the screening fit")
+        out.append(cand)
+    return out
+
+
+def _nearest_root(ar, ma, sar, sma, m: int) -> tuple[str, float] | None:
+    """The lag-polynomial root nearest the unit circle, as (``"AR"`` or ``"MA"``, modulus)."""
+    nearest = None
+    for kind, short, seas, sign in (("AR", ar, sar, -1.0), ("MA", ma, sma, 1.0)):
+        poly = np.r_[1.0, sign * np.asarray(short, dtype=float)]
+        if seas:
+            season = np.zeros(m * len(seas) + 1)
+            season[0] = 1.0
+            season[m :: m] = sign * np.asarray(seas, dtype=float)
+            poly = np.convolve(poly, season)
+        if poly.size > 1:
+            modulus = float(np.min(np.abs(np.roots(poly[::-1]))))
+            if nearest is None or modulus < nearest[1]:
+                nearest = (kind, modulus)
+    return nearest
+
+
 def exhaustive_search(
-    y: pd.Series, spec: TransformSpec, chains: list[list[Spec]], *, workers: int = 1
+    y: pd.Series,
+    spec: TransformSpec,
+    chains: list[list[Spec]],
+    *,
+    workers: int = 1,
+    engine: str = "auto",
 ) -> list[Candidate]:
-    """Screen every order of the grid, then fully fit the promising ones (see module notes)."""
+    """Screen every order of the grid, then fully fit the promising ones (see module notes).
+
+    ``engine="auto"`` screens with the compiled exact likelihood where it applies
+    (:func:`fast_screen_usable`), ``"statsmodels"`` always with statsmodels; the full fits and
+    every number reported for them come from statsmodels either way.
+    """
     mapper, close = _mapper(workers)
     try:
-        screened = [c for chain in mapper(_run_chain, [(y, spec, ch) for ch in chains]) for c in chain]
+        margin, cold_check = REFINE_MARGIN, COLD_CHECK
+        if engine == "auto" and fast_screen_usable(y, spec, chains):
+            screened = _fast_candidates(y, spec, [s for chain in chains for s in chain])
+            # The compiled screen is already the exact likelihood at its optimum, so only
+            # the near-best orders need statsmodels' fit (and its own check of the optimum).
+            margin, cold_check = FAST_REFINE_MARGIN, FAST_COLD_CHECK
+        else:
+            screened = [c for chain in mapper(_run_chain, [(y, spec, ch) for ch in chains]) for c in chain]
         score = [c.aicc if c.params else math.inf for c in screened]
         best = min(score, default=math.inf)
         # full fits: promising screens, including unconverged loose fits whose last iterate
         # is already promising
-        todo = [i for i, c in enumerate(screened) if c.params and score[i] <= best + REFINE_MARGIN]
+        todo = [i for i, c in enumerate(screened) if c.params and score[i] <= best + margin]
         tasks = [(y, spec, (screened[i].order, screened[i].seasonal_order, screened[i].constant), screened[i].params) for i in todo]
         full = mapper(_run_full, tasks)
         results = list(screened)
         for i, c in zip(todo, full, strict=True):
             results[i] = c
-        top = sorted((i for i in todo if results[i].ok), key=lambda i: results[i].aicc)[:COLD_CHECK]
+        top = sorted((i for i in todo if results[i].ok), key=lambda i: results[i].aicc)[:cold_check]
         cold = mapper(_run_full, [(y, spec, (results[i].order, results[i].seasonal_order, results[i].constant), None) for i in top])
         for i, c in zip(top, cold, strict=True):
             results[i] = _better(results[i], c)

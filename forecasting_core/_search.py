@@ -37,6 +37,7 @@ from forecasting_core._results import (
 __all__ = ["compare_models", "fit_model", "fit_order"]
 
 SEARCHES = ("auto", "exhaustive", "stepwise")
+ENGINES = ("auto", "statsmodels")
 
 def resolve_transform(y: pd.Series, transform: str | TransformSpec) -> TransformSpec:
     """A TransformSpec for ``transform`` (``"none"``, ``"log"``, ``"boxcox"``, ``"auto"``)."""
@@ -182,6 +183,7 @@ def compare_models(
     hindcast_origins: int | None = None,
     hindcast: bool = True,
     workers: int = 1,
+    engine: str = "auto",
 ) -> Comparison:
     """Search ARIMA orders, fit the benchmarks, replay past years and check the residuals.
 
@@ -216,6 +218,10 @@ def compare_models(
         Run the hindcast (the best model, up to two runners-up and the benchmarks).
     workers : int
         Worker processes for the order search (1 = this process). Results do not depend on it.
+    engine : {"auto", "statsmodels"}
+        How the exhaustive grid is screened: ``"auto"`` with the compiled exact likelihood when
+        numba is installed and differencing hides no gap, ``"statsmodels"`` always with
+        statsmodels. Every reported fit of the promising orders comes from statsmodels.
 
     Returns
     -------
@@ -235,6 +241,8 @@ def compare_models(
     max_P = _int_in("max_P", max_P, 0, 2)  # noqa: N806
     max_Q = _int_in("max_Q", max_Q, 0, 2)  # noqa: N806
     workers = _int_in("workers", workers, 1, 64)
+    if engine not in ENGINES:
+        raise InputError(f"engine must be one of {', '.join(ENGINES)}. Got {engine!r} instead.")
     if seasonal is None:
         seasonal = m > 1
     elif not isinstance(seasonal, bool | np.bool_):
@@ -286,7 +294,7 @@ def compare_models(
         mm = m if seasonal else 1
         if search_used == "exhaustive":
             chains = grid(d, D, mm, max_p, max_q, max_P, max_Q, constants)
-            fitted = exhaustive_search(y, spec, chains, workers=workers)
+            fitted = exhaustive_search(y, spec, chains, workers=workers, engine=engine)
         else:
             fitted = stepwise_search(y, spec, d, D, mm, max_p, max_q, max_P, max_Q, constants, workers=workers)
     candidates = rank(fitted)
@@ -330,6 +338,7 @@ def compare_models(
         "hindcast": bool(hindcast),
         "hindcast_origins": hindcast_origins,
         "workers": workers,
+        "engine": engine,
         "screening_margin_aicc": REFINE_MARGIN if search_used == "exhaustive" and not forced else None,
         "stationarity": stationarity_note,
     }
