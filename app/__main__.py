@@ -78,6 +78,12 @@ def main(argv: Sequence[str] | None = None) -> int:
         )
         return 2
     print(banner, flush=True)
+    # Compile the screening likelihood now, in the background, not on the first request.
+    import threading
+
+    import forecasting_core
+
+    threading.Thread(target=forecasting_core.warm_up, name="haulcast-warm-up", daemon=True).start()
     try:
         server.run()
     except KeyboardInterrupt:

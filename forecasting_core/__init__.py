@@ -13,6 +13,7 @@ never imports dash, flask or plotly.
 from forecasting_core._batch import run_batch
 from forecasting_core._benchmarks import fit_benchmarks
 from forecasting_core._diagnostics import check_residuals
+from forecasting_core._fastarma import warm_up
 from forecasting_core._forecast import make_forecast
 from forecasting_core._hindcast import run_hindcast
 from forecasting_core._results import (
@@ -85,4 +86,5 @@ __all__ = [
     "run_hindcast",
     "time_label",
     "transform_series",
+    "warm_up",
 ]
