@@ -30,3 +30,14 @@ def sample_dir() -> Path:
 @pytest.fixture(scope="session")
 def test_data_dir() -> Path:
     return TEST_DATA
+
+
+@pytest.fixture(scope="session")
+def nile():
+    """Nile river annual flow at Aswan, 1871-1970 (open data shipped by statsmodels)."""
+    import pandas as pd
+    import statsmodels.api as sm
+
+    data = sm.datasets.nile.load_pandas().data
+    index = pd.period_range(str(int(data["year"].iloc[0])), periods=len(data), freq="Y")
+    return pd.Series(data["volume"].to_numpy(float), index=index, name="nile")

@@ -13,7 +13,6 @@ import re
 
 import pandas as pd
 import pytest
-import statsmodels.api as sm
 
 import forecasting_core as fc
 from app import figures
@@ -22,23 +21,6 @@ from app.wording import fmt_chance, fmt_value, forecast_summary
 
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 PLAIN_NUMBER = re.compile(r"^-?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
-
-
-@pytest.fixture(scope="module")
-def nile() -> pd.Series:
-    data = sm.datasets.nile.load_pandas().data
-    index = pd.period_range(str(int(data["year"].iloc[0])), periods=len(data), freq="Y")
-    return pd.Series(data["volume"].to_numpy(float), index=index, name="nile")
-
-
-@pytest.fixture(scope="module")
-def comparison(nile: pd.Series) -> fc.Comparison:
-    return fc.compare_models(nile, horizon=5)
-
-
-@pytest.fixture(scope="module")
-def forecast(comparison: fc.Comparison) -> fc.Forecast:
-    return fc.make_forecast(comparison.best, horizon=5, levels=(50, 80, 95), reference=800.0)
 
 
 def _renamed(forecast: fc.Forecast, name: str) -> fc.Forecast:

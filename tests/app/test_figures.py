@@ -9,28 +9,10 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
-import statsmodels.api as sm
 from scipy import stats
 
 import forecasting_core as fc
 from app import figures
-
-
-@pytest.fixture(scope="module")
-def nile() -> pd.Series:
-    data = sm.datasets.nile.load_pandas().data
-    index = pd.period_range(str(int(data["year"].iloc[0])), periods=len(data), freq="Y")
-    return pd.Series(data["volume"].to_numpy(float), index=index, name="nile")
-
-
-@pytest.fixture(scope="module")
-def comparison(nile: pd.Series) -> fc.Comparison:
-    return fc.compare_models(nile, horizon=5)
-
-
-@pytest.fixture(scope="module")
-def forecast(comparison: fc.Comparison) -> fc.Forecast:
-    return fc.make_forecast(comparison.best, horizon=5, levels=(50, 80, 95), reference=800.0)
 
 
 def _names(fig) -> list[str]:

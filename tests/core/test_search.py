@@ -22,12 +22,6 @@ def annual(values, start: int = 1900, name: str = "y") -> pd.Series:
 
 
 @pytest.fixture(scope="module")
-def nile() -> pd.Series:
-    data = sm.datasets.nile.load_pandas().data
-    return annual(data["volume"].to_numpy(), int(data["year"].iloc[0]), "nile")
-
-
-@pytest.fixture(scope="module")
 def sunspots() -> pd.Series:
     data = sm.datasets.sunspots.load_pandas().data
     part = data[(data["YEAR"] >= 1770) & (data["YEAR"] <= 1869)]
