@@ -16,7 +16,7 @@ from app.state import TRANSFORMS, resolve_selection, update_selection
 
 #: Model Bench settings a new session starts from (kept in ``hc-selection["bench"]``).
 DEFAULT_BENCH: dict[str, Any] = {
-    "search": "exhaustive",
+    "search": "auto",
     "max_p": 5,
     "max_q": 5,
     "seasonal": True,
@@ -24,7 +24,11 @@ DEFAULT_BENCH: dict[str, Any] = {
     "origins": None,
     "horizon": 5,
 }
-SEARCH_LABELS = {"exhaustive": "Every order (exhaustive)", "stepwise": "Stepwise (faster)"}
+SEARCH_LABELS = {
+    "auto": "Automatic (every order; stepwise with seasonal terms)",
+    "exhaustive": "Every order (exhaustive)",
+    "stepwise": "Stepwise (faster)",
+}
 CONSTANT_LABELS = {"auto": "Try both", "on": "Always", "off": "Never"}
 #: Band levels (percent) everywhere on the bench and the board.
 LEVELS = (50, 80, 95)
@@ -64,7 +68,7 @@ def bench_settings(raw: Mapping[str, Any] | None) -> dict[str, Any]:
     out = {**DEFAULT_BENCH, **{k: v for k, v in dict(raw or {}).items() if k in DEFAULT_BENCH}}
     if out["search"] not in SEARCH_LABELS:
         raise fc.InputError(
-            f"search must be exhaustive or stepwise. Got {out['search']!r} instead."
+            f"search must be auto, exhaustive or stepwise. Got {out['search']!r} instead."
         )
     if out["constant"] not in CONSTANT_LABELS:
         raise fc.InputError(f"constant must be auto, on or off. Got {out['constant']!r} instead.")

@@ -66,7 +66,7 @@ def _settings_panel() -> html.Section:
             dcc.RadioItems(
                 id="bench-search",
                 options=[{"label": v, "value": k} for k, v in SEARCH_LABELS.items()],
-                value="exhaustive",
+                value="auto",
                 className="hc-choices",
             ),
         ),
