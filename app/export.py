@@ -21,7 +21,7 @@ import pandas as pd
 import plotly.graph_objects as go
 
 from app.figures import graph_config
-from app.wording import forecast_summary
+from app.wording import forecast_summary, hindcast_sentence, residual_report
 from forecasting_core import CAUTIONS, Comparison, Forecast, time_label
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -351,16 +351,16 @@ def report_html(
         skill = _skill_frame(comparison)
         if skill is not None:
             parts.append("<h2>Hindcast skill</h2>")
-            if comparison.hindcast is not None and comparison.hindcast.verdict:
-                parts.append(f"<p>{e(comparison.hindcast.verdict)}</p>")
+            if comparison.hindcast is not None:
+                parts.append(
+                    f"<p>{e(forecast.model)}: {e(hindcast_sentence(comparison, forecast.model))}</p>"
+                )
             parts.append(_table_html(skill, left_cols=("model",)))
         parts.append("<h2>Best candidates by AICc</h2>")
         parts.append(_table_html(_candidates_frame(comparison), left_cols=("model",)))
-        if comparison.diagnostics is not None and comparison.diagnostics.verdict:
-            parts.append(
-                f"<p>Residual checks ({e(comparison.diagnostics.model)}): "
-                f"{e(comparison.diagnostics.verdict)}</p>"
-            )
+        diag = residual_report(comparison, forecast.model)
+        if diag is not None and diag.verdict:
+            parts.append(f"<p>Residual checks ({e(diag.model)}): {e(diag.verdict)}</p>")
     for w in forecast.warnings + (comparison.warnings if comparison is not None else ()):
         parts.append(f"<p><strong>Warning:</strong> {e(w)}</p>")
     parts.append("<h2>What produced this forecast</h2>")

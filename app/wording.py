@@ -56,6 +56,12 @@ def _score(comparison: Comparison | None, model: str) -> SkillScore | None:
     return comparison.hindcast.score(model)
 
 
+def band_caution(comparison: Comparison | None, model: str) -> str | None:
+    """The core's caution when ``model``'s bands held far less often than stated on past years."""
+    score = _score(comparison, model)
+    return score.coverage_warning() if score is not None else None
+
+
 def hindcast_sentence(comparison: Comparison | None, model: str) -> str:
     """One sentence on how ``model`` did against the last value on the hindcast."""
     if comparison is None or comparison.hindcast is None:
@@ -142,4 +148,21 @@ def forecast_summary(
     out.append(
         f"The forecast comes from {forecast.model}. {hindcast_sentence(comparison, forecast.model)}"
     )
+    caution = band_caution(comparison, forecast.model)
+    if caution:
+        out.append(caution)
     return out
+
+
+def residual_report(comparison: Comparison, model: str):
+    """Residual checks of ``model``: the comparison's own when it is the best, else computed."""
+    import forecasting_core as fc
+
+    diag = comparison.diagnostics
+    if diag is not None and diag.model == model:
+        return diag
+    try:
+        candidate = comparison.candidate(model)
+    except fc.InputError:
+        return None
+    return fc.check_residuals(candidate) if candidate.ok else None

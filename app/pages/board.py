@@ -123,9 +123,12 @@ def _details(state: Mapping[str, Any]) -> list[Any]:
     ]
     parts: list[Any] = [html_table(rows, [("k", "Item"), ("v", "Value")])]
     if comparison.hindcast is not None:
-        parts.append(html.P([html.Strong("Hindcast: "), comparison.hindcast.verdict]))
-    if comparison.diagnostics is not None and comparison.diagnostics.model == c.label:
-        parts.append(html.P([html.Strong("Residuals: "), comparison.diagnostics.verdict]))
+        parts.append(
+            html.P([html.Strong("Hindcast: "), f"{c.label}. ", wording.hindcast_sentence(comparison, c.label)])
+        )
+    diag = wording.residual_report(comparison, c.label)
+    if diag is not None:
+        parts.append(html.P([html.Strong("Residuals: "), diag.verdict]))
     for w in (*forecast.warnings, *comparison.warnings):
         parts.append(html.Div(w, className="hc-alert hc-alert--warning", role="note"))
     return parts

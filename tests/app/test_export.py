@@ -188,3 +188,12 @@ def test_summary_reads_the_forecast_table(forecast, comparison):
     mine = comparison.hindcast.score(forecast.model).mase
     naive = comparison.hindcast.score("last value").mase
     assert f"{abs(100 * (1 - mine / naive)):.0f}%" in sentences[-1]
+
+
+def test_report_describes_the_picked_model_not_the_best(comparison):
+    # The report's hindcast sentence and residual checks follow the model in use.
+    other = next(c for c in comparison.accepted if c.label != comparison.best.label)
+    picked = fc.make_forecast(other, horizon=5, levels=(50, 80, 95))
+    page = report_html(picked, comparison)
+    assert f"Residual checks ({other.label})" in page
+    assert f"<p>{other.label}:" in page.replace("&#x27;", "'")

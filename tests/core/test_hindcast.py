@@ -265,3 +265,22 @@ def test_fixed_parameter_shortcut_agrees_with_refit_within_tolerance(samples, na
     b = fixed.errors[fixed.errors["model"] == model.label]
     np.testing.assert_allclose(b["median"], a["median"], rtol=0.06)
     assert fixed.score(model.label).mase == pytest.approx(refit.score(model.label).mase, rel=0.10)
+
+
+@pytest.mark.parametrize(
+    ("cover80", "cover95", "forecasts", "warns"),
+    [
+        (80.0, 95.0, 50, False),
+        (64.0, 95.0, 50, True),  # 80% band held fewer than 65% of outcomes
+        (70.0, 84.0, 50, True),  # 95% band held fewer than 85%
+        (50.0, 70.0, 9, False),  # too few forecasts to say
+    ],
+)
+def test_coverage_warning_flags_bands_that_were_too_narrow(cover80, cover95, forecasts, warns):
+    from forecasting_core import SkillScore
+
+    score = SkillScore("ARIMA(1,0,0)", "arima", 10, forecasts, 1.0, 1.0, 1.0, cover80, cover95, 1.0, 1.0)
+    text = score.coverage_warning()
+    assert (text is not None) == warns
+    if warns:
+        assert f"80% band held the outcome {cover80:.0f}%" in text
