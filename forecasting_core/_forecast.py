@@ -241,6 +241,18 @@ def make_forecast(
         else:
             prob = np.array([float(np.mean(mu[h - 1] + errors[h] < t_ref)) for h in range(1, horizon + 1)])
     table["prob_below_reference"] = prob
+    if ref is not None and ref <= 0 and spec.name in ("log", "boxcox"):
+        warnings_.append(
+            f"The reference level {ref:g} is at or below zero, which a {spec.name}-scale model "
+            "never reaches: the chance of falling below it is 0. Check the reference level."
+        )
+    observed = np.asarray(model.series, dtype=float)
+    observed = observed[np.isfinite(observed)]
+    if ref is not None and observed.size and ref > 10 * np.max(np.abs(observed)):
+        warnings_.append(
+            f"The reference level {ref:g} is more than ten times the largest value on record "
+            f"({np.max(np.abs(observed)):g}). Check its unit."
+        )
     if not np.all(np.isfinite(table[f"hi{levels_t[-1]}"])):
         warnings_.append("The widest band has no upper end on the original scale (Box-Cox pole).")
     return Forecast(

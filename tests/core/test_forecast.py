@@ -151,3 +151,23 @@ def test_hindcast_error_bands_use_empirical_quantiles_of_past_errors():
     assert f.table["prob_below_reference"].iloc[0] == pytest.approx(np.mean(mu[0] + e < 50.0))
     assert f.band_source == "hindcast errors"
     assert any("fewer than 8" in w for w in f.warnings)  # six origins: at most six errors a step
+
+
+@pytest.mark.parametrize(
+    ("reference", "message"),
+    [
+        (-5.0, "at or below zero"),
+        (0.0, "at or below zero"),
+        (1e9, "more than ten times the largest value on record"),
+    ],
+)
+def test_implausible_reference_levels_are_named(reference, message):
+    rng = np.random.default_rng(4)
+    y = pd.Series(
+        np.exp(np.log(500.0) + 0.1 * rng.normal(size=40)),
+        index=pd.period_range("1980", periods=40, freq="Y"),
+        name="landings",
+    )
+    candidate = fc.fit_model(y, (0, 0, 0), constant=True, transform="log")
+    forecast = fc.make_forecast(candidate, horizon=3, reference=reference)
+    assert any(message in w for w in forecast.warnings)
