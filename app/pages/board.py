@@ -32,7 +32,7 @@ from app import export, figures, tables, wording
 from app.analysis import LEVELS, board_state, changed_selection, comparison_key, parse_reference
 from app.cache import cache, get_comparison
 from app.state import SELECTION_ID
-from app.ui import caution_box, fmt_number, guarded, html_table, page_header, section
+from app.ui import alert, caution_box, fmt_number, guarded, html_table, page_header, section
 
 dash.register_page(
     __name__, path="/board", name="Forecast Board", order=3, title="Forecast Board \u00b7 Haulcast"
@@ -355,8 +355,14 @@ def render(reference: Any, present: bool | None, data: Mapping[str, Any] | None)
         *_figures(state, bool(present)),
         tables.forecast_table(forecast, state["unit"]),
         _details(state),
-        None,
+        _reference_notes(forecast),
     ]
+
+
+def _reference_notes(forecast: fc.Forecast) -> Any:
+    """The core's notes on an implausible reference level, shown beside the forecast."""
+    notes = [w for w in forecast.warnings if "reference level" in w]
+    return alert(" ".join(notes), "warning", title="Reference level") if notes else None
 
 
 @callback(

@@ -79,6 +79,14 @@ def test_reference_level_sets_the_chance_of_falling_below(page, open_page, settl
     )
 
 
+def test_reference_level_below_zero_is_questioned(page, open_page, settle):
+    _open_board(page, open_page, settle)
+    reference = page.locator("#board-reference")
+    reference.fill("-5")
+    reference.press("Enter")
+    expect(page.locator("#board-alert")).to_contain_text("at or below zero")
+
+
 def test_downloads_csv_and_report_with_cautions(page, open_page, settle, tmp_path):
     _open_board(page, open_page, settle)
     page.locator("#board-reference").fill("2000")
