@@ -21,7 +21,7 @@ import pandas as pd
 import plotly.graph_objects as go
 from scipy import stats
 
-from forecasting_core import Comparison, Forecast, Hindcast, ResidualReport
+from forecasting_core import Comparison, Forecast, Hindcast, ResidualReport, frequency_of
 
 #: Part of the cache key of memoized figures: change it whenever the figures' look changes,
 #: so a server upgrade never serves figures drawn by older code.
@@ -111,15 +111,9 @@ def periods_x(values: Iterable[Any], frequency: str) -> list[Any]:
     return [period_x(v, frequency) for v in values]
 
 
-def _frequency_of_index(series: pd.Series) -> str:
-    index = series.index
-    if isinstance(index, pd.PeriodIndex):
-        code = index.freqstr.upper()
-        if code.startswith("Q"):
-            return "quarterly"
-        if code.startswith("M"):
-            return "monthly"
-    return "annual"
+def series_frequency(series: pd.Series) -> str:
+    """The core's frequency name of a series; ``"annual"`` for an index without periods."""
+    return frequency_of(series) if isinstance(series.index, pd.PeriodIndex) else "annual"
 
 
 def _x_hover(frequency: str) -> str:
@@ -446,7 +440,7 @@ def hindcast_figure(
         ``Observed``, then one ``from {origin}`` trace per origin for ``model`` (first one
         carries the legend entry ``{model}``), then the benchmark's traces.
     """
-    frequency = _frequency_of_index(history)
+    frequency = series_frequency(history)
     errors = hindcast.errors
     model = model or (hindcast.scores[0].model if hindcast.scores else None)
     start = None
@@ -540,7 +534,7 @@ def skill_figure(hindcast: Hindcast, *, height: int = 260) -> go.Figure:
 def residuals_figure(report: ResidualReport, *, height: int = 260) -> go.Figure:
     """Standardized residuals over time with +-1.96 guides; the largest ones labelled."""
     res = report.residuals.astype(float)
-    frequency = _frequency_of_index(res)
+    frequency = series_frequency(res)
     xs = periods_x(res.index, frequency)
     fig = go.Figure(
         go.Scatter(

@@ -14,22 +14,11 @@ import pandas as pd
 import plotly.graph_objects as go
 from plotly.subplots import make_subplots
 
-from app.figures import period_x, periods_x
+from app.figures import period_x, periods_x, series_frequency
 from app.ui import FONT_FAMILY, PALETTE
 from forecasting_core import StationarityReport, TransformSpec
 
 _LEVEL_NAMES = {0: "Original", 1: "First difference", 2: "Second difference"}
-
-
-def _frequency(y: pd.Series) -> str:
-    index = y.index
-    if isinstance(index, pd.PeriodIndex):
-        code = index.freqstr.upper()
-        if code.startswith("Q"):
-            return "quarterly"
-        if code.startswith("M"):
-            return "monthly"
-    return "annual"
 
 
 def _base_layout(fig: go.Figure, *, height: int, title: str | None = None) -> go.Figure:
@@ -108,7 +97,7 @@ def series_figure(
     height : int
         Pixels.
     """
-    frequency = _frequency(y)
+    frequency = series_frequency(y)
     x = periods_x(y.index, frequency)
     values = [
         None if (v is None or (isinstance(v, float) and np.isnan(v))) else float(v)
@@ -213,7 +202,7 @@ def stationarity_figure(report: StationarityReport, *, height: int = 640) -> go.
         series = report.differenced.get(d)
         line_color = PALETTE["teal"] if d == report.d else PALETTE["slate"]
         if series is not None and len(series):
-            frequency = _frequency(series)
+            frequency = series_frequency(series)
             vals = [None if pd.isna(v) else float(v) for v in series.tolist()]
             traces.append(
                 go.Scatter(
