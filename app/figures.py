@@ -156,15 +156,17 @@ def _style(
         template=TEMPLATE,
         font={"family": FONT_FAMILY, "size": 13, "color": COLORS["text"]},
         height=height,
-        margin={"l": 64, "r": 24, "t": 48 if title else 32, "b": 48},
+        margin={"l": 64, "r": 24, "t": 48 if title else 32, "b": 92},
         paper_bgcolor="rgba(0,0,0,0)",
         plot_bgcolor="#ffffff",
         hovermode="x unified",
         # below the plot: the modebar (PNG button) sits top right
+        # anchored to the bottom of the whole figure, so no resize can put it on the axis title
         legend={
             "orientation": "h",
-            "yanchor": "top",
-            "y": -0.2,
+            "yref": "container",
+            "yanchor": "bottom",
+            "y": 0.0,
             "xanchor": "left",
             "x": 0.0,
             "bgcolor": "rgba(255,255,255,0.6)",

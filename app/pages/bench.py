@@ -435,7 +435,7 @@ def render(
         tables.benchmark_panel(comparison),
         tables.skill_rows(comparison),
         html.P(verdict),
-        f"Answered in {elapsed:.2f} s." if elapsed >= 0.01 else "Answered from saved results.",
+        f"Answered in {elapsed:.2f} s." if elapsed >= 0.01 else "Answered in under 0.01 s (saved results).",
         None,
     ]
 
