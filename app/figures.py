@@ -198,8 +198,13 @@ def blank_figure(height: int = 260) -> go.Figure:
 
 
 def value_axis_title(series_name: str, unit: str | None) -> str:
-    """Axis title for values on the original scale, e.g. ``hake landings (t)``."""
-    return f"{series_name} ({unit})" if unit else series_name
+    """Axis title for values on the original scale, e.g. ``hake landings (t)``.
+
+    A name that already carries its unit in brackets (``Landings (t)``) is left as it is.
+    """
+    if not unit or series_name.rstrip().endswith((f"({unit})", f"[{unit}]")):
+        return series_name
+    return f"{series_name} ({unit})"
 
 
 def graph_config(filename: str) -> dict[str, Any]:

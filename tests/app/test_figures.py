@@ -124,3 +124,16 @@ def test_graph_config_offers_png_without_the_logo():
         "filename": "fan_chart_hake_2026",
         "scale": 2,
     }
+
+
+@pytest.mark.parametrize(
+    ("name", "unit", "title"),
+    [
+        ("hake_t", "t", "hake_t (t)"),
+        ("Landings (t)", "t", "Landings (t)"),
+        ("Landings [t]", "t", "Landings [t]"),
+        ("index", None, "index"),
+    ],
+)
+def test_value_axis_title_names_the_unit_once(name, unit, title):
+    assert figures.value_axis_title(name, unit) == title
