@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
+import numpy as np
 from dash import dash_table, html
 from dash.dash_table.Format import Format, Scheme, Symbol
 
@@ -167,17 +168,34 @@ def skill_table() -> dash_table.DataTable:
     )
 
 
+def table_decimals(values: Any) -> int:
+    """One number of decimals for a whole table, from the size of its typical value.
+
+    0 from 100 up (tonnes), 1 from 10, 2 from 1, 3 below (indices, anomalies in deg C).
+    """
+    arr = np.abs(np.asarray(values, dtype=float))
+    arr = arr[np.isfinite(arr)]
+    typical = float(np.median(arr)) if arr.size else 0.0
+    return 0 if typical >= 100 else 1 if typical >= 10 else 2 if typical >= 1 else 3
+
+
 def forecast_rows(forecast: fc.Forecast) -> list[dict[str, Any]]:
     """Rows of the on-page forecast table (values formatted, ranges as 'low - high')."""
+    decimals = table_decimals(forecast.table["median"])
+
+    def num(value: Any) -> str:
+        v = float(value)
+        return "" if not math.isfinite(v) else f"{v:,.{decimals}f}"
+
     rows = []
     for _, r in forecast.table.iterrows():
         row = {
             "time": str(r["time"]),
-            "mean": fmt_number(r["mean"]),
-            "median": fmt_number(r["median"]),
+            "mean": num(r["mean"]),
+            "median": num(r["median"]),
         }
         for lv in forecast.levels:
-            row[f"r{lv}"] = f"{fmt_number(r[f'lo{lv}'])} \u2013 {fmt_number(r[f'hi{lv}'])}"
+            row[f"r{lv}"] = f"{num(r[f'lo{lv}'])} \u2013 {num(r[f'hi{lv}'])}"
         if forecast.reference is not None:
             row["below"] = wording.fmt_chance(float(r["prob_below_reference"]))
         rows.append(row)
