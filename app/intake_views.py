@@ -122,7 +122,8 @@ def problems_view(table: fc.Table) -> Any:
             numeric=("row",),
             caption=caption,
         ),
-        className="hc-table-wrap",
+        # no inner scroll: every listed problem is on the page (the list itself is capped)
+        className="hc-table-wrap hc-table-wrap--full",
     )
 
 
