@@ -122,8 +122,8 @@ def problems_view(table: fc.Table) -> Any:
             numeric=("row",),
             caption=caption,
         ),
-        # no inner scroll: every listed problem is on the page (the list itself is capped)
-        className="hc-table-wrap hc-table-wrap--full",
+        # up to 25 problems stand on the page without an inner scroll; longer lists scroll
+        className="hc-table-wrap hc-table-wrap--full" if len(ordered) <= 25 else "hc-table-wrap",
     )
 
 
