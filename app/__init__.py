@@ -93,6 +93,17 @@ def _defaults() -> dict[str, Any]:
     }
 
 
+def _context_item(label: str, value_id: str) -> html.Div:
+    """One labelled value of the top bar's current selection (filled by a callback)."""
+    return html.Div(
+        [
+            html.Span(label, className="hc-context__label"),
+            html.Span("\u2014", id=value_id, className="hc-context__value"),
+        ],
+        className="hc-context__item",
+    )
+
+
 def create_app(config: Mapping[str, Any] | None = None) -> dash.Dash:
     """Build the Haulcast Dash app.
 
@@ -275,50 +286,10 @@ def _shell_layout() -> html.Div:
                     html.Nav(nav, className="hc-nav", **{"aria-label": "Steps"}),
                     html.Div(
                         [
-                            html.Div(
-                                [
-                                    html.Span("Dataset", className="hc-context__label"),
-                                    html.Span(
-                                        "\u2014",
-                                        id="hc-context-dataset",
-                                        className="hc-context__value",
-                                    ),
-                                ],
-                                className="hc-context__item",
-                            ),
-                            html.Div(
-                                [
-                                    html.Span("Series", className="hc-context__label"),
-                                    html.Span(
-                                        "\u2014",
-                                        id="hc-context-series",
-                                        className="hc-context__value",
-                                    ),
-                                ],
-                                className="hc-context__item",
-                            ),
-                            html.Div(
-                                [
-                                    html.Span("Transform", className="hc-context__label"),
-                                    html.Span(
-                                        "\u2014",
-                                        id="hc-context-transform",
-                                        className="hc-context__value",
-                                    ),
-                                ],
-                                className="hc-context__item",
-                            ),
-                            html.Div(
-                                [
-                                    html.Span("Model", className="hc-context__label"),
-                                    html.Span(
-                                        "\u2014",
-                                        id="hc-context-model",
-                                        className="hc-context__value",
-                                    ),
-                                ],
-                                className="hc-context__item",
-                            ),
+                            _context_item("Dataset", "hc-context-dataset"),
+                            _context_item("Series", "hc-context-series"),
+                            _context_item("Transform", "hc-context-transform"),
+                            _context_item("Model", "hc-context-model"),
                         ],
                         id="hc-context",
                         className="hc-context",
