@@ -217,7 +217,7 @@ def error_record(
     )
 
 
-def forecast_one(
+def compute_one(
     y: pd.Series,
     horizon: int,
     *,
@@ -227,8 +227,10 @@ def forecast_one(
     data_sha256: str | None = None,
     source: str | None = None,
     **compare_settings: Any,
-) -> dict[str, Any]:
-    """Compare models for one series and forecast it; return the contract object.
+) -> tuple[Comparison, Forecast, dict[str, Any]]:
+    """Compare models for one series and forecast it.
+
+    Returns the Comparison, the Forecast and the JSON contract object.
 
     Parameters
     ----------
@@ -244,24 +246,6 @@ def forecast_one(
     **compare_settings
         Passed to :func:`compare_models` (e.g. a forced ``order``).
     """
-    return compute_one(
-        y, horizon, transform=transform, reference=reference, levels=levels,
-        data_sha256=data_sha256, source=source, **compare_settings,
-    )[2]  # fmt: skip
-
-
-def compute_one(
-    y: pd.Series,
-    horizon: int,
-    *,
-    transform: str = "auto",
-    reference: float | None = None,
-    levels: tuple[int, ...] = LEVELS,
-    data_sha256: str | None = None,
-    source: str | None = None,
-    **compare_settings: Any,
-) -> tuple[Comparison, Forecast, dict[str, Any]]:
-    """As :func:`forecast_one`, also returning the Comparison and the Forecast."""
     from forecasting_core._forecast import make_forecast
     from forecasting_core._search import compare_models
 
@@ -309,7 +293,7 @@ def _task(name: str, y: pd.Series, horizon: int, options: dict[str, Any]) -> dic
     where = {"source": options.get("source"), "data_sha256": options.get("data_sha256")}
     try:
         y = y.rename(name)
-        return forecast_one(y, horizon, **options)
+        return compute_one(y, horizon, **options)[2]
     except InputError as exc:
         return error_record(name, str(exc), settings, **where)
     except Exception as exc:  # a failing series never stops the others
