@@ -41,6 +41,7 @@ from dash import _callback as _dash_callback
 from flask import Flask, redirect, request
 
 import forecasting_core as fc
+from app.api import register_api
 from app.cache import init_cache
 from app.state import SELECTION_ID, TRANSFORM_LABELS, resolve_selection
 from app.store import DatasetStore
@@ -136,6 +137,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> dash.Dash:
         store.load_samples(cfg.get("SAMPLE_DIR") or SAMPLE_DIR)
     server.extensions["haulcast"] = {"store": store, "config": cfg}
     init_cache(server, cfg, data_dir)
+    register_api(server)  # the read-only JSON API under /api (app/api.py)
 
     app = dash.Dash(
         "app",

@@ -1,15 +1,27 @@
-"""Datasets on the server: one folder per uploaded file, keyed by its content hash.
+"""The server's store: datasets, saved analyses and sign-offs in the data folder.
 
 Layout under ``DATA_DIR``::
 
-    datasets/<sha256>/raw          the bytes exactly as uploaded
-    datasets/<sha256>/meta.json    {"id", "filename", "kind", "size", "saved_at"}
+    haulcast.sqlite3               datasets (metadata), analyses, sign-offs, schema_version
+    datasets/<sha256>/raw          the bytes exactly as uploaded (content-addressed, write-once)
+    datasets/<sha256>/meta.json    {"id", "filename", "kind", "size", "saved_at"} (a copy)
+
+The raw bytes stay in content-addressed files rather than SQLite blobs: an upload may be 20 MB,
+and as files they never hold SQLite's single write lock while they are written, never pass
+through the WAL twice, and can be checked against their name (the sha256) at any time. A file is
+written completely (temporary folder, fsync, rename) before its row is committed, so a row always
+has its bytes; a crash in between leaves at most an unreferenced folder that the next save of the
+same bytes adopts. The row in SQLite, not the folder, is what makes a dataset exist. A store
+created by the folder-only previous version opens unchanged: the first migration adopts its
+folders.
 
 A dataset is immutable: saving the same bytes again returns the same id. The original file
 name is kept (sanitised) only for display and for telling CSV from Excel; it is never used as a
-path. Which datasets a visitor may see is decided by the browser session (its list of uploaded
-ids, kept in the ``hc-selection`` store) plus the sample datasets that everyone sees; the server
-keeps no per-visitor state.
+path, and neither is any other id (both are checked to be hexadecimal first). Which datasets a
+visitor may see is decided by the browser session (its list of uploaded ids, kept in the
+``hc-selection`` store) plus the sample datasets that everyone sees; the server keeps no
+per-visitor state. Analyses are described in :mod:`app.store_analyses`, the SQLite file in
+:mod:`app.store_db`.
 """
 
 from __future__ import annotations
@@ -22,11 +34,31 @@ import tempfile
 import unicodedata
 from collections.abc import Iterable
 from dataclasses import asdict, dataclass
-from datetime import UTC, datetime
 from hashlib import sha256
 from pathlib import Path
 
 import forecasting_core as fc
+from app.store_analyses import (
+    AnalysesMixin,
+    Analysis,
+    SignOff,
+    check_analysis_id,
+    check_text,
+)
+from app.store_db import DB_NAME, SCHEMA_VERSION, Database, now_utc
+
+__all__ = [
+    "DB_NAME",
+    "SCHEMA_VERSION",
+    "Analysis",
+    "DatasetMeta",
+    "DatasetStore",
+    "SignOff",
+    "check_analysis_id",
+    "check_dataset_id",
+    "get_store",
+    "sanitise_filename",
+]
 
 _ID = re.compile(r"^[0-9a-f]{64}$")
 _SAFE = re.compile(r"[^A-Za-z0-9 ._()+-]+")
@@ -96,8 +128,11 @@ def check_dataset_id(dataset_id: str) -> str:
     return dataset_id
 
 
-class DatasetStore:
-    """Content-addressed datasets under ``data_dir/datasets``.
+class DatasetStore(AnalysesMixin):
+    """Datasets, analyses and sign-offs of one data folder.
+
+    One object serves every thread of a process (each thread gets its own SQLite connection);
+    several processes may open the same folder at once.
 
     Parameters
     ----------
@@ -113,13 +148,19 @@ class DatasetStore:
         self.root.mkdir(parents=True, exist_ok=True)
         self.max_bytes = int(max_bytes if max_bytes is not None else fc.MAX_FILE_BYTES)
         self._samples: list[str] = []
+        self.db = Database(self.data_dir)
         # Datasets are immutable, so a per-store memo is safe to share between sessions.
         self._load = functools.lru_cache(maxsize=32)(self._load_uncached)
 
     # -- writing ------------------------------------------------------------------------------
 
-    def save(self, raw: bytes, filename: str, *, sample: bool = False) -> str:
+    def save(
+        self, raw: bytes, filename: str, *, sample: bool = False, author: str | None = None
+    ) -> str:
         """Keep ``raw`` (the bytes of one uploaded file) and return its id (sha256 hex).
+
+        ``author`` (optional) is recorded as who uploaded it. Saving bytes already kept changes
+        nothing and returns the same id.
 
         Raises
         ------
@@ -138,29 +179,63 @@ class DatasetStore:
                 "Split it, or export only the columns you need."
             )
         digest = sha256(raw).hexdigest()
-        folder = self.root / digest
-        if not (folder / "meta.json").exists():
-            clean = sanitise_filename(filename)
+        clean = sanitise_filename(filename)
+        if not self.exists(digest):
             meta = DatasetMeta(
                 id=digest,
                 filename=clean,
                 kind=_kind(clean),
                 size=len(raw),
-                saved_at=datetime.now(UTC).isoformat(timespec="seconds"),
+                saved_at=now_utc(),
                 sample=sample,
             )
-            tmp = Path(tempfile.mkdtemp(prefix=".tmp-", dir=self.root))
-            (tmp / "raw").write_bytes(bytes(raw))
-            (tmp / "meta.json").write_text(json.dumps(meta.to_dict(), indent=1), encoding="utf-8")
-            try:
-                os.replace(tmp, folder)
-            except OSError:  # another request saved the same bytes first
-                for p in tmp.iterdir():
-                    p.unlink()
-                tmp.rmdir()
+            self._write_folder(digest, bytes(raw), meta)
+            with self.db.write() as tx:
+                # INSERT OR IGNORE: another request may have saved the same bytes meanwhile, and
+                # the first name stays.
+                tx.execute(
+                    "INSERT OR IGNORE INTO datasets (id, filename, kind, size, saved_at, saved_by,"
+                    " sample) VALUES (?, ?, ?, ?, ?, ?, ?)",
+                    (
+                        digest,
+                        meta.filename,
+                        meta.kind,
+                        meta.size,
+                        meta.saved_at,
+                        check_text(author, "author", required=False) or None,
+                        int(sample),
+                    ),
+                )
         if sample and digest not in self._samples:
             self._samples.append(digest)
         return digest
+
+    def _write_folder(self, digest: str, raw: bytes, meta: DatasetMeta) -> None:
+        """Write ``datasets/<digest>`` completely, then rename it into place (write-once)."""
+        folder = self.root / digest
+        if (folder / "meta.json").exists() and (folder / "raw").stat().st_size == len(raw):
+            return  # written before (by the previous version, or by a save killed before its row)
+        tmp = Path(tempfile.mkdtemp(prefix=".tmp-", dir=self.root))
+        try:
+            for name, data in (
+                ("raw", raw),
+                ("meta.json", json.dumps(meta.to_dict(), indent=1).encode("utf-8")),
+            ):
+                with open(tmp / name, "wb") as fh:
+                    fh.write(data)
+                    fh.flush()
+                    os.fsync(fh.fileno())
+            try:
+                os.replace(tmp, folder)
+            except OSError:  # another request saved the same bytes first
+                pass
+            else:
+                _fsync_dir(self.root)
+        finally:
+            if tmp.exists():
+                for p in tmp.iterdir():
+                    p.unlink()
+                tmp.rmdir()
 
     def load_samples(self, folder: str | os.PathLike[str]) -> list[str]:
         """Save every data file in ``folder`` as a sample dataset; return their ids, demo first.
@@ -183,17 +258,26 @@ class DatasetStore:
 
     def exists(self, dataset_id: str | None) -> bool:
         return (
-            bool(dataset_id)
-            and bool(_ID.match(str(dataset_id)))
-            and (self.root / str(dataset_id) / "meta.json").exists()
+            isinstance(dataset_id, str)
+            and bool(_ID.match(dataset_id))
+            and self._row(dataset_id) is not None
         )
 
     def meta(self, dataset_id: str) -> DatasetMeta:
         """Metadata of one dataset (InputError when unknown)."""
-        folder = self._folder(dataset_id)
-        data = json.loads((folder / "meta.json").read_text(encoding="utf-8"))
-        data["sample"] = dataset_id in self._samples
-        return DatasetMeta(**data)
+        check_dataset_id(dataset_id)
+        row = self._row(dataset_id)
+        if row is None:
+            raise fc.InputError(_not_found(dataset_id))
+        filename, kind, size, saved_at, _saved_by = row
+        return DatasetMeta(
+            id=dataset_id,
+            filename=filename,
+            kind=kind,
+            size=int(size),
+            saved_at=saved_at,
+            sample=dataset_id in self._samples,
+        )
 
     def raw(self, dataset_id: str) -> bytes:
         """The bytes exactly as uploaded."""
@@ -232,19 +316,64 @@ class DatasetStore:
 
     # -- internals ----------------------------------------------------------------------------
 
+    def schema_version(self) -> int:
+        """Version of the data folder's schema (see :mod:`app.store_db`)."""
+        return self.db.version()
+
+    def integrity_check(self) -> str:
+        """SQLite's ``PRAGMA integrity_check`` of the database ("ok" when sound)."""
+        return self.db.integrity()
+
+    def close(self) -> None:
+        """Close this process's database connections (they reopen on the next call)."""
+        self.db.close()
+
+    # -- internals ----------------------------------------------------------------------------
+
+    def _row(self, dataset_id: str) -> tuple[str, str, int, str, str | None] | None:
+        return (
+            self.db.conn()
+            .execute(
+                "SELECT filename, kind, size, saved_at, saved_by FROM datasets WHERE id = ?",
+                (dataset_id,),
+            )
+            .fetchone()
+        )
+
     def _folder(self, dataset_id: str) -> Path:
         check_dataset_id(dataset_id)
         folder = self.root / dataset_id
-        if not (folder / "meta.json").exists():
-            raise fc.InputError(
-                f"dataset {dataset_id[:12]} was not found on this server. Upload the file again."
-            )
+        if self._row(dataset_id) is None or not (folder / "raw").is_file():
+            raise fc.InputError(_not_found(dataset_id))
         return folder
+
+    def _known_dataset(self, dataset_id: str) -> None:
+        self._folder(dataset_id)
+
+    def _series_names(self, dataset_id: str) -> list[str]:
+        return list(self.load_table(dataset_id).info)
 
     def _load_uncached(self, dataset_id: str) -> fc.Table:
         folder = self._folder(dataset_id)
-        meta = json.loads((folder / "meta.json").read_text(encoding="utf-8"))
-        return fc.read_table((folder / "raw").read_bytes(), name=meta["filename"])
+        return fc.read_table((folder / "raw").read_bytes(), name=self.meta(dataset_id).filename)
+
+
+def _not_found(dataset_id: str) -> str:
+    return f"dataset {dataset_id[:12]} was not found on this server. Upload the file again."
+
+
+def _fsync_dir(path: Path) -> None:
+    """Make a rename in ``path`` durable (a no-op where directories cannot be opened)."""
+    try:
+        fd = os.open(path, os.O_RDONLY)
+    except OSError:  # pragma: no cover - e.g. Windows
+        return
+    try:
+        os.fsync(fd)
+    except OSError:  # pragma: no cover
+        pass
+    finally:
+        os.close(fd)
 
 
 def _is_demo_name(name: str) -> bool:

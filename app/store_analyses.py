@@ -1,0 +1,562 @@
+"""Saved analyses and sign-offs: the records, their checks and the store methods.
+
+An analysis is a series of one dataset plus everything needed to restore the selection
+(``settings``), the chosen model and the saved forecast. It is a draft until published; a
+published analysis is never edited in place (the store refuses, and SQLite triggers refuse as
+well): a change is a new draft, one version higher, linking to the analysis it revises. Sign-offs
+(a name, a role, a note, the time) are added to published analyses only and are never changed.
+
+Every check of what a caller (ultimately, a user) sends lives in this module and raises
+:class:`forecasting_core.InputError` with a plain message. Settings and forecasts are stored as
+JSON text (never pickle) and come back exactly as saved: floats are written with Python's
+shortest round-trip representation, so every number compares equal after reopening.
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+import math
+import re
+import sqlite3
+import uuid
+from collections.abc import Iterator, Mapping
+from contextlib import contextmanager
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
+
+import forecasting_core as fc
+from app.store_db import IMMUTABLE, now_utc
+
+if TYPE_CHECKING:
+    from app.store_db import Database
+
+STATUSES = ("draft", "published")
+_ANALYSIS_ID = re.compile(r"^[0-9a-f]{32}$")
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f]")
+
+#: Longest accepted text per field, in characters.
+LIMITS = {
+    "author": 80,
+    "name": 80,
+    "role": 80,
+    "series": 200,
+    "title": 200,
+    "season": 40,
+    "model": 200,
+    "note": 2000,
+    "query": 200,
+}
+#: Largest accepted JSON per field, in bytes of UTF-8 text.
+JSON_LIMITS = {"settings": 64 * 1024, "forecast": 2 * 1024 * 1024}
+#: Fields ``revise`` may change.
+REVISABLE = ("dataset_id", "series", "settings", "model", "forecast", "title", "season")
+
+
+@dataclass(frozen=True)
+class SignOff:
+    """A named, dated approval of a published analysis.
+
+    Parameters
+    ----------
+    name, role : str
+        Who signed off and in which capacity (e.g. "stock lead").
+    note : str
+        Free text (may be empty).
+    signed_at : str
+        ISO 8601 UTC time, to the second.
+    """
+
+    name: str
+    role: str
+    note: str
+    signed_at: str
+
+    def to_dict(self) -> dict[str, str]:
+        return {
+            "name": self.name,
+            "role": self.role,
+            "note": self.note,
+            "signed_at": self.signed_at,
+        }
+
+
+@dataclass(frozen=True)
+class Analysis:
+    """One saved analysis (a version in a chain of revisions).
+
+    Parameters
+    ----------
+    id : str
+        32 lowercase hexadecimal digits (a random uuid4): unguessable and safe in URLs.
+    version : int
+        1, 2, ... within one chain of revisions (unique within the chain).
+    parent_id : str or None
+        The analysis this version revises (None for a first version).
+    dataset_id, series, title : str
+        The dataset (sha256), the series name in it, a display title (may be empty).
+    season : str
+        Label of the first forecast period, e.g. ``"2026"`` or ``"2026-07"`` (may be empty).
+    settings : dict
+        JSON: everything needed to restore the selection.
+    model : str
+        Label of the chosen candidate.
+    forecast : dict
+        ``Forecast.to_dict()`` of the saved forecast.
+    status : {"draft", "published"}
+    author, created_at, published_at : str
+        Times are ISO 8601 UTC to the second; ``published_at`` is None for a draft.
+    signoffs : tuple of SignOff
+        Oldest first.
+    published_by : str or None
+        Who published it (None for a draft).
+    """
+
+    id: str
+    version: int
+    parent_id: str | None
+    dataset_id: str
+    series: str
+    title: str
+    season: str
+    settings: dict
+    model: str
+    forecast: dict
+    status: str
+    author: str
+    created_at: str
+    published_at: str | None
+    signoffs: tuple[SignOff, ...] = ()
+    published_by: str | None = field(default=None)
+
+    @property
+    def is_published(self) -> bool:
+        return self.status == "published"
+
+    def to_dict(self) -> dict[str, Any]:
+        """Plain JSON-ready copy (changing it does not change the analysis)."""
+        return {
+            "id": self.id,
+            "version": self.version,
+            "parent_id": self.parent_id,
+            "dataset_id": self.dataset_id,
+            "series": self.series,
+            "title": self.title,
+            "season": self.season,
+            "settings": copy.deepcopy(self.settings),
+            "model": self.model,
+            "forecast": copy.deepcopy(self.forecast),
+            "status": self.status,
+            "author": self.author,
+            "created_at": self.created_at,
+            "published_at": self.published_at,
+            "published_by": self.published_by,
+            "signoffs": [s.to_dict() for s in self.signoffs],
+        }
+
+
+# ---------------------------------------------------------------------------------------------
+# Checks (the one place where input to the store is validated)
+# ---------------------------------------------------------------------------------------------
+
+
+def check_analysis_id(analysis_id: object) -> str:
+    """Return ``analysis_id`` if it is 32 lowercase hex digits, else raise InputError."""
+    if not isinstance(analysis_id, str) or not _ANALYSIS_ID.match(analysis_id):
+        shown = str(analysis_id)[:80] if analysis_id is not None else None
+        raise fc.InputError(
+            f"analysis id must be 32 hexadecimal digits (0-9, a-f). Got {shown!r} instead."
+        )
+    return analysis_id
+
+
+def check_text(value: object, what: str, *, required: bool = True) -> str:
+    """A text field: a string, stripped, without control characters, within ``LIMITS``."""
+    if value is None and not required:
+        return ""
+    if not isinstance(value, str):
+        raise fc.InputError(f"{what} must be text. Got {type(value).__name__} instead.")
+    text = value.strip()
+    if what != "note" and ("\n" in text or "\t" in text):
+        text = " ".join(text.split())
+    if _CONTROL.search(text):
+        raise fc.InputError(f"{what} must not contain control characters. Remove them and retry.")
+    if required and not text:
+        raise fc.InputError(f"{what} must not be empty. Enter a {what}.")
+    limit = LIMITS[what]
+    if len(text) > limit:
+        raise fc.InputError(
+            f"{what} must be at most {limit} characters. Got {len(text)} characters instead."
+        )
+    return text
+
+
+def check_json(value: object, what: str) -> str:
+    """A dict field as compact JSON text (numbers finite, size within ``JSON_LIMITS``)."""
+    if not isinstance(value, Mapping):
+        raise fc.InputError(f"{what} must be a dictionary. Got {type(value).__name__} instead.")
+    try:
+        text = json.dumps(dict(value), allow_nan=False, ensure_ascii=False, separators=(",", ":"))
+    except ValueError as err:
+        raise fc.InputError(
+            f"{what} must hold only finite numbers (no NaN or infinity). Replace them with null."
+        ) from err
+    except TypeError as err:
+        raise fc.InputError(
+            f"{what} must hold only text, numbers, true/false, null, lists and dictionaries. {err}."
+        ) from err
+    limit = JSON_LIMITS[what]
+    size = len(text.encode("utf-8"))
+    if size > limit:
+        raise fc.InputError(
+            f"{what} must be at most {limit // 1024} kB as JSON. Got {math.ceil(size / 1024)} kB "
+            "instead."
+        )
+    return text
+
+
+def check_status(status: object) -> str | None:
+    if status is None:
+        return None
+    if status not in STATUSES:
+        raise fc.InputError(
+            f"status must be 'draft' or 'published'. Got {str(status)[:40]!r} instead."
+        )
+    return str(status)
+
+
+def _published_message(analysis_id: str) -> str:
+    return (
+        f"analysis {analysis_id} is published and cannot be changed. "
+        "Revise it to make a new version."
+    )
+
+
+# ---------------------------------------------------------------------------------------------
+# Store methods (mixed into DatasetStore)
+# ---------------------------------------------------------------------------------------------
+
+_COLUMNS = (
+    "id, version, parent_id, dataset_id, series, title, season, settings, model, forecast,"
+    " status, author, created_at, published_at, published_by"
+)
+
+
+class AnalysesMixin:
+    """Analyses and sign-offs on the store's database (``self.db``)."""
+
+    db: Database
+
+    # provided by DatasetStore
+    def _known_dataset(self, dataset_id: str) -> None: ...  # pragma: no cover
+    def _series_names(self, dataset_id: str) -> list[str]: ...  # pragma: no cover
+
+    # -- writing ------------------------------------------------------------------------------
+
+    def save_analysis(
+        self,
+        *,
+        dataset_id: str,
+        series: str,
+        settings: Mapping[str, Any],
+        model: str,
+        forecast: Mapping[str, Any],
+        author: str,
+        title: str = "",
+        season: str = "",
+        parent_id: str | None = None,
+    ) -> Analysis:
+        """Save a new draft and return it as stored.
+
+        Raises
+        ------
+        forecasting_core.InputError
+            When a field is missing, too long or not JSON, the dataset is unknown, the series is
+            not in it, or ``parent_id`` names no analysis.
+        """
+        row = self._checked_fields(
+            dataset_id=dataset_id,
+            series=series,
+            settings=settings,
+            model=model,
+            forecast=forecast,
+            title=title,
+            season=season,
+        )
+        author = check_text(author, "author")
+        if parent_id is not None:
+            check_analysis_id(parent_id)
+        new_id = uuid.uuid4().hex
+        with self._writing() as tx:
+            if parent_id is None:
+                root_id, version = new_id, 1
+            else:
+                parent = tx.execute(
+                    "SELECT root_id FROM analyses WHERE id = ?", (parent_id,)
+                ).fetchone()
+                if parent is None:
+                    raise fc.InputError(_unknown(parent_id))
+                root_id = parent[0]
+                version = (
+                    1
+                    + tx.execute(
+                        "SELECT max(version) FROM analyses WHERE root_id = ?", (root_id,)
+                    ).fetchone()[0]
+                )
+            tx.execute(
+                "INSERT INTO analyses (id, root_id, version, parent_id, dataset_id, series, title,"
+                " season, settings, model, forecast, status, author, created_at)"
+                " VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, 'draft', ?, ?)",
+                (
+                    new_id,
+                    root_id,
+                    version,
+                    parent_id,
+                    row["dataset_id"],
+                    row["series"],
+                    row["title"],
+                    row["season"],
+                    row["settings"],
+                    row["model"],
+                    row["forecast"],
+                    author,
+                    now_utc(),
+                ),
+            )
+        return self.get_analysis(new_id)
+
+    def publish(self, analysis_id: str, *, author: str) -> Analysis:
+        """Make a draft published (once; a published analysis never changes again)."""
+        check_analysis_id(analysis_id)
+        author = check_text(author, "author")
+        with self._writing() as tx:
+            found = tx.execute(
+                "SELECT status FROM analyses WHERE id = ?", (analysis_id,)
+            ).fetchone()
+            if found is None:
+                raise fc.InputError(_unknown(analysis_id))
+            if found[0] == "published":
+                raise fc.InputError(_published_message(analysis_id))
+            tx.execute(
+                "UPDATE analyses SET status = 'published', published_at = ?, published_by = ?"
+                " WHERE id = ?",
+                (now_utc(), author, analysis_id),
+            )
+        return self.get_analysis(analysis_id)
+
+    def revise(self, analysis_id: str, *, author: str, **changes: Any) -> Analysis:
+        """A new draft copying ``analysis_id`` with ``changes``; version + 1 in the same chain.
+
+        ``changes`` may set any of ``dataset_id, series, settings, model, forecast, title,
+        season``. The revised analysis itself is left as it was.
+        """
+        unknown = sorted(set(changes) - set(REVISABLE))
+        if unknown:
+            raise fc.InputError(
+                f"revise can change {', '.join(REVISABLE)}. Got {', '.join(unknown)} instead."
+            )
+        base = self.get_analysis(analysis_id)
+        fields = {
+            name: changes.get(name, getattr(base, name))
+            for name in ("dataset_id", "series", "settings", "model", "forecast", "title", "season")
+        }
+        return self.save_analysis(**fields, author=author, parent_id=analysis_id)
+
+    def add_signoff(self, analysis_id: str, *, name: str, role: str, note: str = "") -> Analysis:
+        """Sign off a published analysis; return it with the new sign-off last."""
+        check_analysis_id(analysis_id)
+        name = check_text(name, "name")
+        role = check_text(role, "role")
+        note = check_text(note, "note", required=False)
+        with self._writing() as tx:
+            found = tx.execute(
+                "SELECT status FROM analyses WHERE id = ?", (analysis_id,)
+            ).fetchone()
+            if found is None:
+                raise fc.InputError(_unknown(analysis_id))
+            if found[0] != "published":
+                raise fc.InputError(
+                    f"analysis {analysis_id} is a draft; only published analyses can be signed "
+                    "off. Publish it first."
+                )
+            tx.execute(
+                "INSERT INTO signoffs (analysis_id, name, role, note, signed_at)"
+                " VALUES (?, ?, ?, ?, ?)",
+                (analysis_id, name, role, note, now_utc()),
+            )
+        return self.get_analysis(analysis_id)
+
+    # -- reading ------------------------------------------------------------------------------
+
+    def get_analysis(self, analysis_id: str) -> Analysis:
+        """One analysis with its sign-offs (InputError naming the id when unknown/malformed)."""
+        check_analysis_id(analysis_id)
+        with self.db.read() as conn:
+            row = conn.execute(
+                f"SELECT {_COLUMNS} FROM analyses WHERE id = ?", (analysis_id,)
+            ).fetchone()
+            if row is None:
+                raise fc.InputError(_unknown(analysis_id))
+            signoffs = _signoffs(conn, [analysis_id])
+        return _analysis(row, signoffs.get(analysis_id, ()))
+
+    def list_analyses(
+        self,
+        *,
+        query: str | None = None,
+        status: str | None = None,
+        series: str | None = None,
+        limit: int | None = None,
+    ) -> list[Analysis]:
+        """Saved analyses, newest first.
+
+        Parameters
+        ----------
+        query : str, optional
+            Words that must all appear (case-insensitively) in the title, series, season,
+            author or model.
+        status : {"draft", "published"}, optional
+            Only analyses with this status (default: both).
+        series : str, optional
+            Only analyses of this series (exact name).
+        limit : int, optional
+            At most this many (from 1 to 10000).
+        """
+        status = check_status(status)
+        where, args = [], []
+        if query is not None:
+            for word in check_text(query, "query", required=False).split():
+                where.append(
+                    "instr(hc_fold(title || ' ' || series || ' ' || season || ' ' || author"
+                    " || ' ' || model), ?) > 0"
+                )
+                args.append(word.casefold())
+        if status is not None:
+            where.append("status = ?")
+            args.append(status)
+        if series is not None:
+            where.append("series = ?")
+            args.append(check_text(series, "series"))
+        sql = f"SELECT {_COLUMNS} FROM analyses"
+        if where:
+            sql += " WHERE " + " AND ".join(where)
+        sql += " ORDER BY seq DESC"
+        if limit is not None:
+            if isinstance(limit, bool) or not isinstance(limit, int) or not 1 <= limit <= 10_000:
+                raise fc.InputError(
+                    f"limit must be an integer from 1 to 10000. Got {limit!r} instead."
+                )
+            sql += f" LIMIT {int(limit)}"
+        with self.db.read() as conn:
+            rows = conn.execute(sql, args).fetchall()
+            signoffs = _signoffs(conn, [r[0] for r in rows])
+        return [_analysis(r, signoffs.get(r[0], ())) for r in rows]
+
+    def history(self, analysis_id: str) -> list[Analysis]:
+        """Every version in the chain ``analysis_id`` belongs to, oldest first."""
+        check_analysis_id(analysis_id)
+        with self.db.read() as conn:
+            root = conn.execute(
+                "SELECT root_id FROM analyses WHERE id = ?", (analysis_id,)
+            ).fetchone()
+            if root is None:
+                raise fc.InputError(_unknown(analysis_id))
+            rows = conn.execute(
+                f"SELECT {_COLUMNS} FROM analyses WHERE root_id = ? ORDER BY version", (root[0],)
+            ).fetchall()
+            signoffs = _signoffs(conn, [r[0] for r in rows])
+        return [_analysis(r, signoffs.get(r[0], ())) for r in rows]
+
+    # -- internals ----------------------------------------------------------------------------
+
+    def _checked_fields(self, **fields: Any) -> dict[str, Any]:
+        from app.store import check_dataset_id
+
+        dataset_id = check_dataset_id(fields["dataset_id"])
+        self._known_dataset(dataset_id)
+        series = check_text(fields["series"], "series")
+        names = self._series_names(dataset_id)
+        if series not in names:
+            shown = ", ".join(names[:12]) + (" ..." if len(names) > 12 else "")
+            raise fc.InputError(
+                f"series {series!r} is not in dataset {dataset_id[:12]}. "
+                f"Its series are: {shown or 'none'}."
+            )
+        return {
+            "dataset_id": dataset_id,
+            "series": series,
+            "settings": check_json(fields["settings"], "settings"),
+            "model": check_text(fields["model"], "model"),
+            "forecast": check_json(fields["forecast"], "forecast"),
+            "title": check_text(fields["title"], "title", required=False),
+            "season": check_text(fields["season"], "season", required=False),
+        }
+
+    @contextmanager
+    def _writing(self) -> Iterator[sqlite3.Connection]:
+        """``db.write()``, with a trigger's refusal turned into the store's plain message."""
+        try:
+            with self.db.write() as tx:
+                yield tx
+        except sqlite3.IntegrityError as err:
+            if IMMUTABLE in str(err):
+                raise fc.InputError(
+                    "a published analysis cannot be changed. Revise it to make a new version."
+                ) from err
+            raise
+
+
+def _unknown(analysis_id: str) -> str:
+    return f"analysis {analysis_id} was not found on this server."
+
+
+def _signoffs(conn: sqlite3.Connection, ids: list[str]) -> dict[str, tuple[SignOff, ...]]:
+    out: dict[str, list[SignOff]] = {}
+    for start in range(0, len(ids), 500):
+        chunk = ids[start : start + 500]
+        marks = ",".join("?" * len(chunk))
+        for analysis_id, *rest in conn.execute(
+            f"SELECT analysis_id, name, role, note, signed_at FROM signoffs"
+            f" WHERE analysis_id IN ({marks}) ORDER BY seq",
+            chunk,
+        ):
+            out.setdefault(analysis_id, []).append(SignOff(*rest))
+    return {k: tuple(v) for k, v in out.items()}
+
+
+def _analysis(row: tuple[Any, ...], signoffs: tuple[SignOff, ...]) -> Analysis:
+    (
+        id_,
+        version,
+        parent_id,
+        dataset_id,
+        series,
+        title,
+        season,
+        settings,
+        model,
+        forecast,
+        status,
+        author,
+        created_at,
+        published_at,
+        published_by,
+    ) = row
+    return Analysis(
+        id=id_,
+        version=int(version),
+        parent_id=parent_id,
+        dataset_id=dataset_id,
+        series=series,
+        title=title,
+        season=season,
+        settings=json.loads(settings),
+        model=model,
+        forecast=json.loads(forecast),
+        status=status,
+        author=author,
+        created_at=created_at,
+        published_at=published_at,
+        signoffs=signoffs,
+        published_by=published_by,
+    )

@@ -1,0 +1,329 @@
+"""The SQLite file behind :mod:`app.store`: connections, transactions, schema and migrations.
+
+One database file, ``DATA_DIR/haulcast.sqlite3``, shared by every thread of a waitress server
+and by every process of ``--workers N``:
+
+- WAL journal, so readers never wait for a writer and a writer never waits for readers;
+- ``synchronous=FULL``, so a save that returned survives a power cut as well as a killed process;
+- ``busy_timeout``, so a writer waits for another writer instead of failing;
+- one connection per thread and per process (a connection is never shared; a forked child opens
+  its own instead of reusing its parent's);
+- every write is one ``BEGIN IMMEDIATE`` ... ``COMMIT`` transaction (see :meth:`Database.write`).
+
+The schema carries its version in ``schema_version`` (one row per applied migration). Opening a
+data folder applies the missing migrations in order, inside one write transaction, so two
+processes starting at once cannot both migrate. A folder written by a newer Haulcast is refused
+rather than guessed at.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import re
+import sqlite3
+import threading
+import weakref
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
+from datetime import UTC, datetime
+from pathlib import Path
+
+import forecasting_core as fc
+
+DB_NAME = "haulcast.sqlite3"
+BUSY_TIMEOUT_MS = 15_000
+_HEX64 = re.compile(r"^[0-9a-f]{64}$")
+
+#: Message raised by the triggers that keep published analyses, sign-offs and datasets unchanged.
+IMMUTABLE = "haulcast: immutable row"
+
+_V1 = f"""
+CREATE TABLE datasets (
+    id        TEXT PRIMARY KEY CHECK (length(id) = 64),
+    filename  TEXT NOT NULL,
+    kind      TEXT NOT NULL CHECK (kind IN ('csv', 'xlsx')),
+    size      INTEGER NOT NULL CHECK (size > 0),
+    saved_at  TEXT NOT NULL,
+    saved_by  TEXT,
+    sample    INTEGER NOT NULL DEFAULT 0
+);
+CREATE TABLE analyses (
+    seq          INTEGER PRIMARY KEY AUTOINCREMENT,
+    id           TEXT NOT NULL UNIQUE CHECK (length(id) = 32),
+    root_id      TEXT NOT NULL,
+    version      INTEGER NOT NULL CHECK (version >= 1),
+    parent_id    TEXT REFERENCES analyses (id),
+    dataset_id   TEXT NOT NULL REFERENCES datasets (id),
+    series       TEXT NOT NULL,
+    title        TEXT NOT NULL,
+    season       TEXT NOT NULL,
+    settings     TEXT NOT NULL CHECK (json_valid(settings)),
+    model        TEXT NOT NULL,
+    forecast     TEXT NOT NULL CHECK (json_valid(forecast)),
+    status       TEXT NOT NULL CHECK (status IN ('draft', 'published')),
+    author       TEXT NOT NULL,
+    created_at   TEXT NOT NULL,
+    published_at TEXT,
+    published_by TEXT,
+    UNIQUE (root_id, version),
+    CHECK ((status = 'published') = (published_at IS NOT NULL))
+);
+CREATE INDEX analyses_series ON analyses (series, seq);
+CREATE INDEX analyses_status ON analyses (status, seq);
+CREATE TABLE signoffs (
+    seq         INTEGER PRIMARY KEY AUTOINCREMENT,
+    analysis_id TEXT NOT NULL REFERENCES analyses (id),
+    name        TEXT NOT NULL,
+    role        TEXT NOT NULL,
+    note        TEXT NOT NULL,
+    signed_at   TEXT NOT NULL
+);
+CREATE INDEX signoffs_analysis ON signoffs (analysis_id, seq);
+
+-- What an analysis says never changes; a draft may only become published, once.
+CREATE TRIGGER analyses_content_is_fixed
+BEFORE UPDATE OF id, root_id, version, parent_id, dataset_id, series, title, season, settings,
+                 model, forecast, author, created_at ON analyses
+BEGIN SELECT RAISE(ABORT, '{IMMUTABLE}'); END;
+CREATE TRIGGER analyses_published_is_fixed
+BEFORE UPDATE ON analyses WHEN OLD.status = 'published'
+BEGIN SELECT RAISE(ABORT, '{IMMUTABLE}'); END;
+CREATE TRIGGER analyses_published_is_kept
+BEFORE DELETE ON analyses WHEN OLD.status = 'published'
+BEGIN SELECT RAISE(ABORT, '{IMMUTABLE}'); END;
+CREATE TRIGGER signoffs_on_published_only
+BEFORE INSERT ON signoffs
+WHEN (SELECT status FROM analyses WHERE id = NEW.analysis_id) IS NOT 'published'
+BEGIN SELECT RAISE(ABORT, '{IMMUTABLE}'); END;
+CREATE TRIGGER signoffs_are_fixed BEFORE UPDATE ON signoffs
+BEGIN SELECT RAISE(ABORT, '{IMMUTABLE}'); END;
+CREATE TRIGGER signoffs_are_kept BEFORE DELETE ON signoffs
+BEGIN SELECT RAISE(ABORT, '{IMMUTABLE}'); END;
+CREATE TRIGGER datasets_are_fixed
+BEFORE UPDATE OF id, filename, kind, size, saved_at, saved_by ON datasets
+BEGIN SELECT RAISE(ABORT, '{IMMUTABLE}'); END;
+"""
+
+
+def now_utc() -> str:
+    """The current time as ISO 8601 UTC to the second, e.g. ``2026-12-01T20:54:19+00:00``."""
+    return datetime.now(UTC).isoformat(timespec="seconds")
+
+
+def _migrate_1(conn: sqlite3.Connection, data_dir: Path) -> str:
+    """Create the tables and adopt the datasets the folder-only version left behind."""
+    for statement in _split_sql(_V1):
+        conn.execute(statement)
+    adopted = 0
+    root = data_dir / "datasets"
+    if root.is_dir():
+        for folder in sorted(root.iterdir()):
+            row = _previous_meta(folder)
+            if row is None:
+                continue
+            conn.execute(
+                "INSERT OR IGNORE INTO datasets (id, filename, kind, size, saved_at, saved_by)"
+                " VALUES (?, ?, ?, ?, ?, NULL)",
+                row,
+            )
+            adopted += 1
+    return f"created tables; adopted {adopted} dataset folder(s) of the previous version"
+
+
+def _previous_meta(folder: Path) -> tuple[str, str, str, int, str] | None:
+    """The dataset row for one ``datasets/<sha256>/{raw,meta.json}`` folder, or None.
+
+    Only folders named by a content hash whose ``raw`` has the recorded size are adopted; the
+    name in ``meta.json`` is display text and never becomes a path.
+    """
+    if not _HEX64.match(folder.name) or not folder.is_dir():
+        return None
+    raw, meta_path = folder / "raw", folder / "meta.json"
+    try:
+        meta = json.loads(meta_path.read_text(encoding="utf-8"))
+        size = raw.stat().st_size
+    except (OSError, ValueError):
+        return None
+    if not isinstance(meta, dict) or meta.get("id", folder.name) != folder.name or size <= 0:
+        return None
+    from app.store import sanitise_filename  # local: store imports this module
+
+    filename = sanitise_filename(str(meta.get("filename") or "upload.csv"))
+    kind = "xlsx" if meta.get("kind") == "xlsx" else "csv"
+    saved_at = str(meta.get("saved_at") or now_utc())[:40]
+    return folder.name, filename, kind, size, saved_at
+
+
+def _split_sql(script: str) -> list[str]:
+    """Statements of a script (triggers keep their inner ``;`` before ``END``)."""
+    out, current = [], []
+    for line in script.splitlines():
+        if line.strip().startswith("--") or not line.strip():
+            continue
+        current.append(line)
+        joined = "\n".join(current).strip()
+        inside_trigger = joined.upper().startswith("CREATE TRIGGER")
+        if joined.endswith(";") and (not inside_trigger or joined.upper().endswith("END;")):
+            out.append(joined)
+            current = []
+    if current:
+        out.append("\n".join(current))
+    return out
+
+
+#: Forward migrations: (version, function(conn, data_dir) -> note). Append only; never edit one
+#: that has shipped.
+MIGRATIONS: tuple[tuple[int, Callable[[sqlite3.Connection, Path], str]], ...] = ((1, _migrate_1),)
+SCHEMA_VERSION = MIGRATIONS[-1][0]
+
+
+def _fold(text: object) -> str:
+    return str(text or "").casefold()
+
+
+class Database:
+    """The store's SQLite file: a connection per thread and process, explicit transactions.
+
+    Parameters
+    ----------
+    data_dir : Path
+        Folder holding ``haulcast.sqlite3`` (created when missing).
+    """
+
+    def __init__(self, data_dir: Path) -> None:
+        self.data_dir = Path(data_dir)
+        self.path = self.data_dir / DB_NAME
+        self._lock = threading.Lock()
+        self._conns: dict[tuple[int, int], sqlite3.Connection] = {}
+        self._finalizer = weakref.finalize(self, _close_all, self._conns, self._lock)
+        self._migrate()
+
+    # -- connections --------------------------------------------------------------------------
+
+    def conn(self) -> sqlite3.Connection:
+        """This thread's connection (opened on first use, in this process)."""
+        key = (os.getpid(), threading.get_ident())
+        conn = self._conns.get(key)
+        if conn is None:
+            conn = self._open()
+            with self._lock:
+                self._prune()
+                self._conns[key] = conn
+        return conn
+
+    def _open(self) -> sqlite3.Connection:
+        conn = sqlite3.connect(
+            self.path, timeout=BUSY_TIMEOUT_MS / 1000, isolation_level=None, check_same_thread=False
+        )
+        conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+        mode = conn.execute("PRAGMA journal_mode = WAL").fetchone()[0]
+        if str(mode).lower() != "wal":  # pragma: no cover - e.g. a network file system
+            raise fc.InputError(
+                f"the data folder {self.data_dir} does not support SQLite's WAL journal "
+                f"(got {mode!r}). Use a folder on a local disk."
+            )
+        conn.execute("PRAGMA synchronous = FULL")
+        conn.execute("PRAGMA foreign_keys = ON")
+        conn.create_function("hc_fold", 1, _fold, deterministic=True)
+        return conn
+
+    def _prune(self) -> None:
+        """Close connections of threads that ended and of processes we were forked from."""
+        pid = os.getpid()
+        alive = {t.ident for t in threading.enumerate()}
+        for key in list(self._conns):
+            if key[0] != pid:
+                self._conns.pop(key)  # the parent's: never touch it from the child
+            elif key[1] not in alive:
+                try:
+                    self._conns.pop(key).close()
+                except sqlite3.Error:  # pragma: no cover
+                    pass
+
+    def close(self) -> None:
+        """Close every connection this process opened (the store can be used again after)."""
+        _close_all(self._conns, self._lock)
+
+    # -- transactions -------------------------------------------------------------------------
+
+    @contextmanager
+    def write(self) -> Iterator[sqlite3.Connection]:
+        """One write transaction: ``BEGIN IMMEDIATE`` ... ``COMMIT``, rolled back on any error."""
+        conn = self.conn()
+        conn.execute("BEGIN IMMEDIATE")
+        try:
+            yield conn
+        except BaseException:
+            if conn.in_transaction:
+                conn.execute("ROLLBACK")
+            raise
+        conn.execute("COMMIT")
+
+    @contextmanager
+    def read(self) -> Iterator[sqlite3.Connection]:
+        """One read transaction: every query inside sees the same snapshot."""
+        conn = self.conn()
+        conn.execute("BEGIN")
+        try:
+            yield conn
+        finally:
+            if conn.in_transaction:
+                conn.execute("COMMIT")
+
+    # -- schema -------------------------------------------------------------------------------
+
+    def version(self) -> int:
+        """The schema version of the file (0 for a folder the SQLite store never opened)."""
+        return _current_version(self.conn())
+
+    def _migrate(self) -> None:
+        self.data_dir.mkdir(parents=True, exist_ok=True)
+        conn = self.conn()
+        if _current_version(conn) == SCHEMA_VERSION:
+            return
+        with self.write() as tx:
+            tx.execute(
+                "CREATE TABLE IF NOT EXISTS schema_version ("
+                " version INTEGER PRIMARY KEY, applied_at TEXT NOT NULL, note TEXT NOT NULL)"
+            )
+            current = _current_version(tx)
+            if current > SCHEMA_VERSION:
+                raise fc.InputError(
+                    f"the data folder {self.data_dir} was written by a newer Haulcast "
+                    f"(schema {current}; this version knows up to {SCHEMA_VERSION}). "
+                    "Upgrade Haulcast or use another data folder."
+                )
+            for version, migrate in MIGRATIONS:
+                if version > current:
+                    note = migrate(tx, self.data_dir)
+                    tx.execute(
+                        "INSERT INTO schema_version (version, applied_at, note) VALUES (?, ?, ?)",
+                        (version, now_utc(), note),
+                    )
+
+    def integrity(self) -> str:
+        """``PRAGMA integrity_check`` ("ok" when the file is sound)."""
+        rows = self.conn().execute("PRAGMA integrity_check").fetchall()
+        return "; ".join(str(r[0]) for r in rows)
+
+
+def _current_version(conn: sqlite3.Connection) -> int:
+    has_table = conn.execute(
+        "SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = 'schema_version'"
+    ).fetchone()
+    if not has_table:
+        return 0
+    return int(conn.execute("SELECT coalesce(max(version), 0) FROM schema_version").fetchone()[0])
+
+
+def _close_all(conns: dict[tuple[int, int], sqlite3.Connection], lock: threading.Lock) -> None:
+    pid = os.getpid()
+    with lock:
+        for key in list(conns):
+            conn = conns.pop(key)
+            if key[0] == pid:
+                try:
+                    conn.close()
+                except sqlite3.Error:  # pragma: no cover
+                    pass
