@@ -20,7 +20,7 @@ $(BIN)/python:
 	$(BIN)/python -m pip install --quiet --upgrade pip
 
 $(STAMP): pyproject.toml | $(BIN)/python
-	$(BIN)/python -m pip install --quiet -e '.[test]'
+	$(BIN)/python -m pip install --quiet -e '.[test,cluster]'
 	touch $(STAMP)
 
 venv: $(STAMP)

@@ -1,283 +1,80 @@
-"""Many series at once, in worker processes; the forecast JSON object of DESIGN.md.
+"""Many series at once: in worker processes, or on a Dask cluster, with bounded memory.
 
 Every usable series of a file goes through :func:`compare_models` and :func:`make_forecast`
-in its own task. Tasks run in a :class:`concurrent.futures.ProcessPoolExecutor` (``workers``
-processes) or inline when ``workers`` is 1. Each task computes from its own series and
-settings only, so the results do not depend on the number of workers, and they are returned
-in file order whatever order the tasks finish in. A series that fails gives an entry with an
-``"error"`` message and never stops the others.
+in its own task (:func:`compute_one`, in :mod:`forecasting_core._batch_records`). Tasks run
+inline (``workers=1``), in a :class:`concurrent.futures.ProcessPoolExecutor` (``workers``
+processes), or on a Dask distributed cluster (``scheduler=``; see
+:mod:`forecasting_core._batch_dask`).
+
+Guarantees:
+
+* Identical results whatever runs the tasks: each task computes from its own series and
+  settings only, with one BLAS thread and the same warnings filter, and records carry no clock
+  time, so 1 worker, N workers and a cluster give byte-identical JSON.
+* Bounded memory: at most ``window`` series are submitted and not yet handed back; records come
+  back in file order through :func:`iter_batch` as soon as they and all before them are done,
+  so a caller that writes them out (the command line does) never holds the whole batch.
+* A failure stays with its series: an error in the model code becomes that series' ``"error"``
+  record; a worker process that dies takes no other series with it (the tasks that were
+  running beside it are rerun one at a time to find the one that stops a worker).
 """
 
 from __future__ import annotations
 
-import hashlib
-import math
 import os
-import platform
-from collections.abc import Callable, Mapping
-from concurrent.futures import ProcessPoolExecutor, as_completed
-from dataclasses import replace
+import warnings
+from collections import deque
+from collections.abc import Callable, Iterator, Mapping
+from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
+from concurrent.futures.process import BrokenProcessPool
+from contextlib import AbstractContextManager
 from pathlib import Path
 from typing import Any
 
 import pandas as pd
 
-from forecasting_core._results import (
-    CAUTIONS,
-    Comparison,
-    Forecast,
-    InputError,
-    Problem,
-    Table,
-    _clean,
+from forecasting_core._batch_records import (  # re-exported: the batch's record API
+    LEVELS,
+    RECORD_KEYS,
+    _better_benchmarks,
+    compute_one,
+    error_record,
+    forecast_record,
+    hindcast_summary,
+    package_versions,
+    problem_text,
+    provenance,
+    series_sha256,
+    unusable_message,
 )
+from forecasting_core._results import InputError, Table
 
-#: Band levels of every exported forecast (percent).
-LEVELS: tuple[int, ...] = (50, 80, 95)
-#: Top-level keys of one forecast object, in order (DESIGN.md contract plus cautions and provenance).
-RECORD_KEYS: tuple[str, ...] = (
-    "series", "observations", "frequency", "transform", "model", "candidates", "hindcast",
-    "forecast", "warnings", "cautions", "provenance",
-)  # fmt: skip
+__all__ = [
+    "LEVELS", "RECORD_KEYS", "_better_benchmarks", "compute_one", "error_record",
+    "forecast_record", "hindcast_summary", "iter_batch", "package_versions", "problem_text",
+    "provenance", "run_batch", "series_sha256", "unusable_message",
+]  # fmt: skip
 
+#: Series submitted but not yet handed back, per worker (bounds memory and keeps workers busy).
+WINDOW_PER_WORKER = 4
 
-def package_versions() -> dict[str, str]:
-    """Versions of Python and of every package that shapes a result."""
-    import numpy
-    import scipy
-    import statsmodels
-
-    from forecasting_core import __version__
-
-    return {
-        "haulcast": __version__,
-        "python": platform.python_version(),
-        "numpy": numpy.__version__,
-        "pandas": pd.__version__,
-        "scipy": scipy.__version__,
-        "statsmodels": statsmodels.__version__,
-    }
+_BLAS: Any = None
 
 
-def series_sha256(y: pd.Series) -> str:
-    """Content hash of one series: its periods and values (NaN included) as text."""
-    text = "\n".join(
-        f"{p}\t{'' if pd.isna(v) else repr(float(v))}" for p, v in zip(y.index, y, strict=True)
-    )
-    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+def one_blas_thread() -> AbstractContextManager[Any]:
+    """Context that limits BLAS to one thread in this process (cached controller, ~20 us).
 
-
-def provenance(
-    y: pd.Series,
-    settings: Mapping[str, Any],
-    *,
-    data_sha256: str | None = None,
-    source: str | None = None,
-    resolved: Mapping[str, Any] | None = None,
-) -> dict[str, Any]:
-    """What produced a result: data hashes, settings and package versions.
-
-    ``settings`` are the ones asked for; ``resolved`` (optional) every setting the model
-    comparison actually used (differences, search, transform). No clock time is recorded,
-    so that the same data and settings give the same object.
+    Every task runs under it, inline or in a worker, so results never depend on how many BLAS
+    threads a process happens to have (and workers do not oversubscribe the cores).
     """
-    out = {
-        "source": source,
-        "data_sha256": data_sha256,
-        "series_sha256": series_sha256(y),
-        "settings": dict(settings),
-        "versions": package_versions(),
-    }
-    if resolved is not None:
-        out["resolved_settings"] = dict(resolved)
-    return _clean(out)
+    global _BLAS
+    if _BLAS is None:
+        from threadpoolctl import ThreadpoolController
 
+        import forecasting_core._search  # noqa: F401  (loads numpy's and scipy's BLAS first)
 
-def hindcast_summary(comparison: Comparison) -> dict[str, Any] | None:
-    """The ``hindcast`` object of the contract, for the chosen model.
-
-    ``origins`` is the number of origins; ``mase``, ``rmse`` and ``coverage`` (percent) are
-    the chosen model's scores.
-    """
-    h = comparison.hindcast
-    if h is None:
-        return None
-    s = h.score(comparison.best.label) or (h.scores[0] if h.scores else None)
-    if s is None:
-        return None
-    return _clean(
-        {
-            "origins": len(h.origins),
-            "mase": s.mase,
-            "rmse": s.rmse,
-            "coverage": {"80": s.coverage80, "95": s.coverage95},
-        }
-    )
-
-
-def _better_benchmarks(comparison: Comparison) -> list[str]:
-    """Warnings for benchmarks other than the last value that beat the chosen model on MASE."""
-    h = comparison.hindcast
-    mine = h.score(comparison.best.label) if h is not None else None
-    if mine is None or not math.isfinite(mine.mase):
-        return []
-    out = []
-    for s in h.scores:
-        if s.kind == "benchmark" and s.model != "last value" and math.isfinite(s.mase):
-            if round(s.mase, 2) < round(mine.mase, 2):  # a difference the message can show
-                out.append(
-                    f"On the hindcast the {s.model} benchmark scored a lower MASE than "
-                    f"{mine.model} ({s.mase:.2f} vs {mine.mase:.2f})."
-                )
-    return out
-
-
-def forecast_record(
-    comparison: Comparison,
-    forecast: Forecast,
-    settings: Mapping[str, Any],
-    *,
-    data_sha256: str | None = None,
-    source: str | None = None,
-    series: pd.Series | None = None,
-) -> dict[str, Any]:
-    """Build the forecast JSON object of DESIGN.md (plus ``cautions`` and ``provenance``).
-
-    Parameters
-    ----------
-    comparison : Comparison
-        The model comparison; its ``best`` is the model reported.
-    forecast : Forecast
-        Bands from that model.
-    settings : Mapping
-        Every setting that produced the result (recorded in ``provenance``).
-    data_sha256, source : str, optional
-        Hash and name of the file the series came from.
-    series : pandas.Series, optional
-        The series (default: the one the chosen model was fitted to).
-    """
-    best = comparison.best
-    warnings: list[str] = []
-    for w in (*comparison.warnings, *forecast.warnings):
-        if w not in warnings:
-            warnings.append(w)
-    h = comparison.hindcast
-    if h is not None and h.verdict and "did not beat" in h.verdict and h.verdict not in warnings:
-        warnings.append(h.verdict)
-    score = h.score(best.label) if h is not None else None
-    if score is not None and (caution := score.coverage_warning()):
-        warnings.append(caution)
-    warnings.extend(w for w in _better_benchmarks(comparison) if w not in warnings)
-    record = {
-        "series": comparison.series_name,
-        "observations": comparison.observations,
-        "frequency": comparison.frequency,
-        "transform": comparison.transform.to_dict(),
-        "model": best.model_dict(),
-        "candidates": [
-            {k: c.to_dict()[k] for k in ("label", "order", "seasonal_order", "aicc", "delta_aicc", "weight")}
-            for c in comparison.accepted
-        ],
-        "hindcast": hindcast_summary(comparison),
-        "forecast": forecast.rows(),
-        "warnings": warnings,
-        "cautions": list(forecast.cautions or CAUTIONS),
-        "provenance": provenance(
-            series if series is not None else best.series,
-            settings,
-            data_sha256=data_sha256,
-            source=source,
-            resolved=comparison.settings,
-        ),
-    }
-    return _clean(record)
-
-
-def error_record(
-    name: str, message: str, settings: Mapping[str, Any], *, kind: str = "data", **where: Any
-) -> dict[str, Any]:
-    """The entry of a series that could not be forecast.
-
-    ``error_kind`` is ``"data"`` when the series or the settings cannot be used (a plain
-    message says why) and ``"internal"`` for anything else.
-    """
-    return _clean(
-        {
-            "series": name,
-            "error": message,
-            "error_kind": kind,
-            "cautions": list(CAUTIONS),
-            "provenance": {
-                "source": where.get("source"),
-                "data_sha256": where.get("data_sha256"),
-                "settings": dict(settings),
-                "versions": package_versions(),
-            },
-        }
-    )
-
-
-def compute_one(
-    y: pd.Series,
-    horizon: int,
-    *,
-    transform: str = "auto",
-    reference: float | None = None,
-    levels: tuple[int, ...] = LEVELS,
-    data_sha256: str | None = None,
-    source: str | None = None,
-    **compare_settings: Any,
-) -> tuple[Comparison, Forecast, dict[str, Any]]:
-    """Compare models for one series and forecast it.
-
-    Returns the Comparison, the Forecast and the JSON contract object.
-
-    Parameters
-    ----------
-    y : pandas.Series
-        Original-scale values on an annual, quarterly or monthly PeriodIndex.
-    horizon : int
-        Steps ahead at the series' frequency.
-    transform : {"auto", "none", "log", "boxcox"}
-    reference : float, optional
-        Reference level on the original scale (probability of falling below it per step).
-    levels : tuple of int
-        Band levels in percent.
-    **compare_settings
-        Passed to :func:`compare_models` (e.g. a forced ``order``).
-    """
-    from forecasting_core._forecast import make_forecast
-    from forecasting_core._search import compare_models
-
-    comparison = compare_models(y, horizon=horizon, transform=transform, **compare_settings)
-    if not comparison.best.ok:
-        raise InputError(
-            comparison.warnings[0] if comparison.warnings else
-            f"no model could be fitted to series {comparison.series_name!r}."
-        )  # fmt: skip
-    forecast = make_forecast(comparison.best, horizon=horizon, levels=levels, reference=reference)
-    settings = {
-        "horizon": horizon,
-        "transform": transform,
-        "reference": reference,
-        "levels": list(levels),
-        **{k: (list(v) if isinstance(v, tuple) else v) for k, v in compare_settings.items()},
-    }
-    record = forecast_record(
-        comparison, forecast, settings, data_sha256=data_sha256, source=source, series=y
-    )
-    return comparison, forecast, record
-
-
-_WORKER_BLAS_LIMIT: Any = None
-
-
-def _init_worker() -> None:
-    """Worker set-up: one BLAS thread per process (the workers already fill the cores)."""
-    global _WORKER_BLAS_LIMIT
-    from threadpoolctl import threadpool_limits
-
-    _WORKER_BLAS_LIMIT = threadpool_limits(limits=1, user_api="blas")
+        _BLAS = ThreadpoolController()
+    return _BLAS.limit(limits=1, user_api="blas")
 
 
 def _settings_of(horizon: int, options: Mapping[str, Any]) -> dict[str, Any]:
@@ -288,12 +85,17 @@ def _settings_of(horizon: int, options: Mapping[str, Any]) -> dict[str, Any]:
 
 
 def _task(name: str, y: pd.Series, horizon: int, options: dict[str, Any]) -> dict[str, Any]:
-    """One batch task (module level, so worker processes can run it)."""
+    """One batch task (module level, so worker processes and Dask workers can run it).
+
+    Runs with one BLAS thread and warnings ignored (the core reports what matters as
+    statuses and record warnings), so the record is the same in any process.
+    """
     settings = _settings_of(horizon, options)
     where = {"source": options.get("source"), "data_sha256": options.get("data_sha256")}
     try:
-        y = y.rename(name)
-        return compute_one(y, horizon, **options)[2]
+        with one_blas_thread(), warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return compute_one(y.rename(name), horizon, **options)[2]
     except InputError as exc:
         return error_record(name, str(exc), settings, **where)
     except Exception as exc:  # a failing series never stops the others
@@ -303,29 +105,213 @@ def _task(name: str, y: pd.Series, horizon: int, options: dict[str, Any]) -> dic
         )  # fmt: skip
 
 
-def problem_text(p: Problem) -> str:
-    """One problem as plain text: "row 27, 2021, column 'cod_t': message"."""
-    where = ", ".join(
-        x
-        for x in (
-            f"row {p.row}" if p.row is not None else "",
-            p.time or "",
-            f"column {p.column!r}" if p.column is not None else "",
+# ---------------------------------------------------------------------------------------------
+# Engines: inline, local processes (Dask lives in _batch_dask). Each submits a task and waits
+# for the first of several to finish; futures follow concurrent.futures' interface.
+# ---------------------------------------------------------------------------------------------
+
+
+class _InlineEngine:
+    """Runs each task at once in this process."""
+
+    slots = 1
+    broken_error: type[BaseException] | None = None
+
+    def submit(self, name: str, y: pd.Series, horizon: int, options: dict[str, Any]) -> Future:
+        future: Future = Future()
+        future.set_result(_task(name, y, horizon, options))
+        return future
+
+    def wait_first(self, pending: set) -> set:
+        return set(pending)
+
+    def restart(self) -> None:  # pragma: no cover - nothing to restart
+        pass
+
+    def close(self) -> None:
+        pass
+
+
+class _ProcessEngine:
+    """A pool of ``workers`` processes; ``restart`` replaces a pool a dead worker broke."""
+
+    broken_error: type[BaseException] | None = BrokenProcessPool
+
+    def __init__(self, workers: int) -> None:
+        self.slots = workers
+        self._pool = ProcessPoolExecutor(max_workers=workers)
+
+    def submit(self, name: str, y: pd.Series, horizon: int, options: dict[str, Any]) -> Future:
+        return self._pool.submit(_task, name, y, horizon, options)
+
+    def wait_first(self, pending: set) -> set:
+        return wait(pending, return_when=FIRST_COMPLETED).done
+
+    def restart(self) -> None:
+        self._pool.shutdown(wait=True, cancel_futures=True)
+        self._pool = ProcessPoolExecutor(max_workers=self.slots)
+
+    def close(self) -> None:
+        self._pool.shutdown(wait=True, cancel_futures=True)
+
+
+def _default_workers() -> int:
+    if hasattr(os, "sched_getaffinity"):
+        return len(os.sched_getaffinity(0))
+    return os.cpu_count() or 1
+
+
+def iter_batch(
+    path_or_table: str | Path | Table,
+    horizon: int = 5,
+    *,
+    transform: str = "auto",
+    workers: int | None = None,
+    scheduler: Any = None,
+    window: int | None = None,
+    progress: Callable[[int, int, str], None] | None = None,
+    on_result: Callable[[dict[str, Any]], None] | None = None,
+    **compare_settings: Any,
+) -> Iterator[dict[str, Any]]:
+    """Compare and forecast every series of a file, yielding records in file order.
+
+    Same parameters and records as :func:`run_batch`, which collects this into a list. Settings
+    are checked (and a scheduler connected to) when this is called, not at the first record.
+    Records are handed back as soon as they and every series before them are done; at most
+    ``window`` series are in work or waiting to be handed back at any time.
+
+    Parameters
+    ----------
+    window : int, optional
+        Bound on series submitted but not yet yielded; default four per worker (at least 8).
+    """
+    if isinstance(horizon, bool) or not isinstance(horizon, int) or not 1 <= horizon <= 30:
+        raise InputError(f"horizon must be an integer from 1 to 30. Got {horizon!r} instead.")
+    if scheduler is not None and workers is not None:
+        raise InputError(
+            "workers applies to local runs only; with a scheduler the cluster's workers run the "
+            f"series. Got workers={workers!r} and a scheduler instead."
         )
-        if x
-    )
-    return f"{where}: {p.message}" if where else p.message
+    if workers is None and scheduler is None:
+        workers = _default_workers()
+    if workers is not None and (isinstance(workers, bool) or not isinstance(workers, int) or workers < 1):
+        raise InputError(f"workers must be a positive integer. Got {workers!r} instead.")
+    if window is not None and (isinstance(window, bool) or not isinstance(window, int) or window < 1):
+        raise InputError(f"window must be a positive integer. Got {window!r} instead.")
+    if isinstance(path_or_table, Table):
+        table = path_or_table
+    else:
+        from forecasting_core._table import read_table
+
+        table = read_table(path_or_table)
+    options = {
+        "transform": transform,
+        "source": table.source,
+        "data_sha256": table.sha256,
+        **compare_settings,
+    }
+    names = list(table.info) or list(table.series)
+    usable = [name for name in names if name in table.series]
+    if scheduler is not None:
+        from forecasting_core._batch_dask import DaskEngine
+
+        engine: Any = DaskEngine(scheduler)
+    elif workers == 1 or len(usable) <= 1:
+        engine = _InlineEngine()
+    else:
+        engine = _ProcessEngine(min(workers, len(usable)))
+    if window is None:
+        window = max(WINDOW_PER_WORKER * engine.slots, 8) if engine.slots > 1 else 1
+    return _run(table, names, horizon, options, engine, window, progress, on_result)
 
 
-def unusable_message(table: Table, name: str) -> str:
-    """Plain message for a series the file check marked unusable, naming rows and years."""
-    parts = [
-        problem_text(replace(p, column=None))
-        for p in table.info[name].problems
-        if p.severity == "error"
-    ]
-    detail = "; ".join(parts) if parts else "it has no usable values."
-    return f"series {name!r} cannot be used: {detail}"
+def _run(
+    table: Table,
+    names: list[str],
+    horizon: int,
+    options: dict[str, Any],
+    engine: Any,
+    window: int,
+    progress: Callable[[int, int, str], None] | None,
+    on_result: Callable[[dict[str, Any]], None] | None,
+) -> Iterator[dict[str, Any]]:
+    """The scheduling loop behind :func:`iter_batch` (a generator; closes ``engine``)."""
+    total, done = len(names), 0
+    ready: dict[int, dict[str, Any]] = {}
+
+    def finish(i: int, record: dict[str, Any]) -> None:
+        nonlocal done
+        ready[i] = record
+        done += 1
+        if on_result is not None:
+            on_result(record)
+        if progress is not None:
+            progress(done, total, names[i])
+
+    def failed(i: int, why: str) -> dict[str, Any]:
+        return error_record(
+            names[i], f"could not be forecast ({why})", _settings_of(horizon, options),
+            kind="internal", source=table.source, data_sha256=table.sha256,
+        )  # fmt: skip
+
+    # Series the file check marked unusable are known at once (small records; reported first).
+    todo: deque[int] = deque()
+    for i, name in enumerate(names):
+        if name in table.series:
+            todo.append(i)
+        else:
+            finish(i, error_record(name, unusable_message(table, name), _settings_of(horizon, options),
+                                   source=table.source, data_sha256=table.sha256))  # fmt: skip
+    pending: dict[Any, int] = {}  # future -> series index
+    suspects: deque[int] = deque()  # were running when a worker died: rerun one at a time
+    isolated = False
+    next_out = 0
+    try:
+        while next_out < total:
+            # Submit while the window allows; suspects run alone so a crash names its series.
+            while True:
+                if suspects:
+                    if pending:
+                        break
+                    i, isolated = suspects.popleft(), True
+                elif todo and not isolated and todo[0] - next_out < window and len(pending) < window:
+                    i = todo.popleft()
+                else:
+                    break
+                pending[engine.submit(names[i], table.series[names[i]], horizon, options)] = i
+                if isolated:
+                    break
+            while next_out < total and next_out in ready:
+                yield ready.pop(next_out)
+                next_out += 1
+            if not pending:
+                continue
+            restart = False
+            for future in engine.wait_first(set(pending)):
+                i = pending.pop(future)
+                try:
+                    record = future.result()
+                except Exception as exc:
+                    if engine.broken_error is not None and isinstance(exc, engine.broken_error):
+                        restart = True
+                        if not isolated:
+                            suspects.append(i)
+                            continue
+                        record = failed(i, "its worker process stopped, e.g. out of memory")
+                    else:
+                        record = failed(i, f"worker stopped: {type(exc).__name__}")
+                finish(i, record)
+            if restart:
+                # Every task that was in flight in the broken pool is suspect as well.
+                suspects = deque(sorted([*suspects, *pending.values()]))
+                pending.clear()
+                engine.restart()
+            if isolated and not pending:
+                isolated = False
+    finally:
+        for future in pending:
+            future.cancel()
+        engine.close()
 
 
 def run_batch(
@@ -334,6 +320,7 @@ def run_batch(
     *,
     transform: str = "auto",
     workers: int | None = None,
+    scheduler: Any = None,
     progress: Callable[[int, int, str], None] | None = None,
     on_result: Callable[[dict[str, Any]], None] | None = None,
     **compare_settings: Any,
@@ -348,7 +335,12 @@ def run_batch(
         Steps ahead at each series' frequency, 1 to 30.
     transform : {"auto", "none", "log", "boxcox"}
     workers : int, optional
-        Worker processes; default the number of cores available. 1 runs inline.
+        Local worker processes; default the number of cores available. 1 runs inline.
+    scheduler : str or distributed.Client, optional
+        Run the series on a Dask distributed cluster instead: the scheduler's address
+        (``"tcp://host:8786"``), a connected ``Client``, or an object with a
+        ``scheduler_address`` (e.g. a ``LocalCluster``). Needs ``pip install haulcast[cluster]``
+        here and the same haulcast version on every worker. Not together with ``workers``.
     progress : callable, optional
         Called as ``progress(done, total, name)`` in this process each time a series
         finishes (in finishing order).
@@ -363,73 +355,19 @@ def run_batch(
     list of dict
         One forecast object per series in file order (DESIGN.md contract plus ``cautions``
         and ``provenance``); a series that could not be used or failed has an ``"error"``
-        message instead of the model and forecast keys.
+        message instead of the model and forecast keys. The same whatever the number of
+        workers or the cluster. For very large files use :func:`iter_batch` (same records,
+        one at a time, bounded memory).
 
     Raises
     ------
     InputError
-        The file cannot be read, or a setting is out of range.
+        The file cannot be read, a setting is out of range, dask is not installed or the
+        scheduler cannot be reached.
     """
-    if isinstance(horizon, bool) or not isinstance(horizon, int) or not 1 <= horizon <= 30:
-        raise InputError(f"horizon must be an integer from 1 to 30. Got {horizon!r} instead.")
-    if workers is None:
-        workers = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count() or 1
-    if isinstance(workers, bool) or not isinstance(workers, int) or workers < 1:
-        raise InputError(f"workers must be a positive integer. Got {workers!r} instead.")
-    if isinstance(path_or_table, Table):
-        table = path_or_table
-    else:
-        from forecasting_core._table import read_table
-
-        table = read_table(path_or_table)
-    options = {
-        "transform": transform,
-        "source": table.source,
-        "data_sha256": table.sha256,
-        **compare_settings,
-    }
-    names = list(table.info) or list(table.series)
-    total = len(names)
-    results: dict[str, dict[str, Any]] = {}
-    done = 0
-
-    def finish(name: str, record: dict[str, Any]) -> None:
-        nonlocal done
-        results[name] = record
-        done += 1
-        if on_result is not None:
-            on_result(record)
-        if progress is not None:
-            progress(done, total, name)
-
-    todo = []
-    for name in names:
-        if name in table.series:
-            todo.append(name)
-        else:
-            settings = _settings_of(horizon, options)
-            finish(name, error_record(name, unusable_message(table, name), settings,
-                                      source=table.source, data_sha256=table.sha256))
-    if workers == 1 or len(todo) <= 1:
-        for name in todo:
-            finish(name, _task(name, table.series[name], horizon, options))
-    else:
-        with ProcessPoolExecutor(
-            max_workers=min(workers, len(todo)), initializer=_init_worker
-        ) as pool:
-            futures = {
-                pool.submit(_task, name, table.series[name], horizon, options): name
-                for name in todo
-            }
-            for future in as_completed(futures):
-                name = futures[future]
-                try:
-                    record = future.result()
-                except Exception as exc:  # a worker that died takes only its own series
-                    record = error_record(
-                        name, f"could not be forecast (worker stopped: {type(exc).__name__})",
-                        _settings_of(horizon, options), kind="internal",
-                        source=table.source, data_sha256=table.sha256,
-                    )  # fmt: skip
-                finish(name, record)
-    return [results[name] for name in names]
+    return list(
+        iter_batch(
+            path_or_table, horizon, transform=transform, workers=workers, scheduler=scheduler,
+            progress=progress, on_result=on_result, **compare_settings,
+        )  # fmt: skip
+    )
