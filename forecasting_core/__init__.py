@@ -16,6 +16,7 @@ from forecasting_core._diagnostics import check_residuals
 from forecasting_core._fastarma import warm_up
 from forecasting_core._forecast import make_forecast
 from forecasting_core._hindcast import run_hindcast
+from forecasting_core._record import score_forecast_record
 from forecasting_core._results import (
     CAUTIONS,
     Benchmark,
@@ -23,8 +24,10 @@ from forecasting_core._results import (
     Comparison,
     Correlogram,
     Forecast,
+    ForecastRecord,
     Hindcast,
     InputError,
+    PastForecastScore,
     Problem,
     ResidualReport,
     SeriesInfo,
@@ -57,9 +60,11 @@ __all__ = [
     "Comparison",
     "Correlogram",
     "Forecast",
+    "ForecastRecord",
     "Hindcast",
     "InputError",
     "MAX_FILE_BYTES",
+    "PastForecastScore",
     "Problem",
     "ResidualReport",
     "SeriesInfo",
@@ -84,6 +89,7 @@ __all__ = [
     "read_table",
     "run_batch",
     "run_hindcast",
+    "score_forecast_record",
     "time_label",
     "transform_series",
     "warm_up",

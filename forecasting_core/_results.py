@@ -36,6 +36,7 @@ from forecasting_core._model_results import (  # noqa: F401 - re-exported
     SkillScore,
     TransformSpec,
 )
+from forecasting_core._record_results import ForecastRecord, PastForecastScore  # noqa: F401 - re-exported
 
 # ---------------------------------------------------------------------------------------------
 # Intake
