@@ -85,6 +85,11 @@ def build_parser() -> argparse.ArgumentParser:
         "--workers", metavar="N", help="worker processes (default: the number of cores)"
     )
     batch.add_argument(
+        "--scheduler",
+        metavar="ADDRESS",
+        help="run on a Dask cluster instead, e.g. tcp://host:8786 (needs haulcast[cluster])",
+    )
+    batch.add_argument(
         "--json", action="store_true", help="print a JSON list, one object per series"
     )
     batch.add_argument("--out", metavar="DIR", help="write forecasts.csv and models.json into DIR")

@@ -12,6 +12,7 @@ import json
 import math
 import re
 import sys
+import textwrap
 import warnings
 from collections.abc import Iterable, Sequence
 from pathlib import Path
@@ -246,14 +247,19 @@ def csv_rows(record: dict[str, Any]) -> list[list[str]]:
     return out
 
 
+def _forecast_csv_head(w: Any, source: str | None) -> None:
+    """The comment header (cautions) and column names of a forecast CSV."""
+    w.writerow([safe_cell(f"# Haulcast forecasts{' from ' + source if source else ''}")])
+    for c in CAUTIONS:
+        w.writerow([f"# Caution: {c}"])
+    w.writerow(list(CSV_COLUMNS))
+
+
 def write_forecast_csv(path: Path | str, records: Sequence[dict[str, Any]], source: str | None = None) -> None:
     """Write forecast rows with a comment header holding the cautions."""
     with open(path, "w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
-        w.writerow([safe_cell(f"# Haulcast forecasts{' from ' + source if source else ''}")])
-        for c in CAUTIONS:
-            w.writerow([f"# Caution: {c}"])
-        w.writerow(list(CSV_COLUMNS))
+        _forecast_csv_head(w, source)
         for record in records:
             w.writerows(csv_rows(record))
 
@@ -320,8 +326,42 @@ def _forecast(args: Any) -> int:
     return 0
 
 
+class JsonListWriter:
+    """Write a JSON list one object at a time, byte-identical to ``json.dump(items, indent=2)``.
+
+    The batch streams its records through this, so a batch of thousands of series never holds
+    all of them in memory.
+    """
+
+    def __init__(self, out: TextIO) -> None:
+        self._out, self.count = out, 0
+
+    def add(self, obj: Any) -> None:
+        text = json.dumps(obj, indent=2, allow_nan=False)
+        self._out.write(("[\n" if self.count == 0 else ",\n") + textwrap.indent(text, "  "))
+        self.count += 1
+
+    def close(self) -> None:
+        self._out.write("\n]\n" if self.count else "[]\n")
+
+
+def _batch_line(r: dict[str, Any]) -> list[str]:
+    """Readable lines of one forecast record in the batch summary."""
+    first = r["forecast"][0]
+    dec = _decimals([first["median"]])
+    lo, hi = first["intervals"].get("80", [None, None])
+    hc = r.get("hindcast") or {}
+    mase = f", hindcast MASE {hc['mase']:.2f}" if hc.get("mase") is not None else ""
+    lines = [
+        f"  {r['series']}: {r['model']['label']}; {first['time']} median "
+        f"{_num(first['median'], dec)} (80% {_num(lo, dec)} to {_num(hi, dec)}){mase}"
+    ]
+    lines.extend(f"      warning: {w}" for w in r["warnings"])
+    return lines
+
+
 def _batch(args: Any) -> int:
-    from forecasting_core._batch import run_batch
+    from forecasting_core._batch import iter_batch
 
     horizon = parse_horizon(_opt(args, "horizon"))
     transform = parse_transform(_opt(args, "transform"))
@@ -333,7 +373,16 @@ def _batch(args: Any) -> int:
             workers = -1
         if workers < 1:
             raise InputError(f"--workers must be a positive integer. Got {_opt(args, 'workers')!r} instead.")
+    scheduler = _opt(args, "scheduler")
+    if scheduler is not None and workers is not None:
+        raise InputError(
+            "--workers applies to local runs only; with --scheduler the cluster's workers run "
+            f"the series. Got --workers {workers} and --scheduler {scheduler} instead."
+        )
+    if scheduler is not None and not str(scheduler).strip():
+        raise InputError("--scheduler needs an address such as tcp://host:8786. Got '' instead.")
     out_dir = _opt(args, "out")
+    as_json = bool(_opt(args, "json", False))
     table = _read(_opt(args, "file"))
     if not table.info:
         raise _no_series(table)
@@ -344,46 +393,65 @@ def _batch(args: Any) -> int:
         status[record["series"]] = "failed" if "error" in record else "done"
 
     def on_progress(done: int, total: int, name: str) -> None:
-        print(f"[{done}/{total}] {name} {status.get(name, 'done')}", file=sys.stderr, flush=True)
+        print(f"[{done}/{total}] {name} {status.pop(name, 'done')}", file=sys.stderr, flush=True)
 
-    records = run_batch(
-        table, horizon, transform=transform, workers=workers, progress=on_progress,
-        on_result=on_result,
+    records = iter_batch(
+        table, horizon, transform=transform, workers=workers, scheduler=scheduler,
+        progress=on_progress, on_result=on_result,
     )  # fmt: skip
-    ok = [r for r in records if "error" not in r]
-    failed = [r for r in records if "error" in r]
+    # Records are written out as they come (file order) and not kept: only failures are.
+    files: list[TextIO] = []
+    models = rows = None
     if out_dir:
         out = Path(str(out_dir))
         out.mkdir(parents=True, exist_ok=True)
-        write_forecast_csv(out / "forecasts.csv", ok, source=table.source)
-        with open(out / "models.json", "w", encoding="utf-8") as fh:
-            _dump(records, fh)
-    if _opt(args, "json", False):
-        _dump(records, sys.stdout)
-    else:
-        print(f"{table.source}: {len(ok)} of {len(records)} series forecast, horizon {horizon}")
-        for r in ok:
-            first = r["forecast"][0]
-            dec = _decimals([first["median"]])
-            lo, hi = first["intervals"].get("80", [None, None])
-            hc = r.get("hindcast") or {}
-            mase = f", hindcast MASE {hc['mase']:.2f}" if hc.get("mase") is not None else ""
-            print(
-                f"  {r['series']}: {r['model']['label']}; {first['time']} median "
-                f"{_num(first['median'], dec)} (80% {_num(lo, dec)} to {_num(hi, dec)}){mase}"
-            )
-            for w in r["warnings"]:
-                print(f"      warning: {w}")
+        models_fh = open(out / "models.json.partial", "w", encoding="utf-8")
+        files.append(models_fh)
+        rows_fh = open(out / "forecasts.csv.partial", "w", newline="", encoding="utf-8")
+        files.append(rows_fh)
+        models, rows = JsonListWriter(models_fh), csv.writer(rows_fh)
+        _forecast_csv_head(rows, table.source)
+    stdout_json = JsonListWriter(sys.stdout) if as_json else None
+    ok = 0
+    failed: list[tuple[str, str, str]] = []
+    try:
+        if not as_json:
+            print(f"{table.source}: {len(table.info)} series, horizon {horizon}", flush=True)
+        for r in records:
+            if models is not None and rows is not None:
+                models.add(r)
+                rows.writerows(csv_rows(r) if "error" not in r else [])
+            if stdout_json is not None:
+                stdout_json.add(r)
+            if "error" in r:
+                failed.append((r["series"], r["error"], r.get("error_kind", "data")))
+                continue
+            ok += 1
+            if not as_json:
+                print("\n".join(_batch_line(r)), flush=True)
+        if models is not None:
+            models.close()
+        if stdout_json is not None:
+            stdout_json.close()
+    finally:
+        for fh in files:
+            fh.close()
+    if out_dir:
+        out = Path(str(out_dir))
+        (out / "models.json.partial").replace(out / "models.json")
+        (out / "forecasts.csv.partial").replace(out / "forecasts.csv")
+    if not as_json:
+        print(f"{ok} of {ok + len(failed)} series forecast.")
         if out_dir:
             print(f"Written: {Path(str(out_dir)) / 'forecasts.csv'} and {Path(str(out_dir)) / 'models.json'}")
         print("Cautions:")
         for c in CAUTIONS:
             print(f"  - {c}")
-    for r in failed:
-        print(f"failed: {r['series']}: {r['error']}", file=sys.stderr)
+    for name, message, _ in failed:
+        print(f"failed: {name}: {message}", file=sys.stderr)
     if ok:
         return 0
-    return 1 if any(r.get("error_kind") == "internal" for r in failed) else 2
+    return 1 if any(kind == "internal" for *_, kind in failed) else 2
 
 
 def _cli_forecast(args: Any) -> int:
