@@ -18,6 +18,9 @@ Configuration keys (all optional):
     Load the demo datasets from ``sample_data/`` at start (default True).
 ``SAMPLE_DIR``
     Where the demo datasets are (default: the repository's ``sample_data/``).
+``ACCESS_KEY``
+    The team server's shared access key, or None (default) for an open server; see
+    :mod:`app.access` for it and the session cookie settings (``ACCESS_COOKIE_SECURE`` ...).
 
 The layout is the shell (top bar, the ``hc-selection`` session store, a global alert slot)
 around Dash's page container; each module in ``app/pages`` registers its page and owns its
@@ -42,7 +45,9 @@ from flask import Flask, redirect, request
 
 import forecasting_core as fc
 from app.api import register_api
+from app.access import LOGOUT_PATH, install_access
 from app.cache import init_cache
+from app.errors import install_error_handlers
 from app.state import SELECTION_ID, TRANSFORM_LABELS, resolve_selection
 from app.store import DatasetStore
 from app.ui import error_alert, guarded
@@ -91,6 +96,7 @@ def _defaults() -> dict[str, Any]:
         "MAX_UPLOAD_BYTES": fc.MAX_FILE_BYTES,
         "LOAD_SAMPLES": True,
         "SAMPLE_DIR": str(SAMPLE_DIR),
+        "ACCESS_KEY": None,
     }
 
 
@@ -131,6 +137,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> dash.Dash:
     # An upload travels base64-encoded inside a JSON callback body: allow a third more plus slack.
     server.config["MAX_CONTENT_LENGTH"] = int(max_bytes * 1.4) + 1_000_000
     server.config["PROPAGATE_EXCEPTIONS"] = False
+    install_access(server)  # the key check runs before every other request hook
 
     store = DatasetStore(data_dir, max_bytes=max_bytes)
     if cfg.get("LOAD_SAMPLES", True):
@@ -157,6 +164,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> dash.Dash:
     server.before_request(_root_to_intake)
     app.layout = _shell_layout
     _register_shell_callbacks(app)
+    install_error_handlers(app)
     return app
 
 
@@ -308,12 +316,22 @@ def _shell_layout() -> html.Div:
                     html.Span(
                         "Statistical projections from past values only \u2014 not a stock assessment."
                     ),
+                    *_forget_key_link(),
                 ],
                 className="hc-footer",
             ),
         ],
         className="hc-shell",
     )
+
+
+def _forget_key_link() -> list[Any]:
+    """A "forget the access key" link in the footer when this server has a key."""
+    from flask import current_app, has_app_context
+
+    if not (has_app_context() and current_app.config.get("ACCESS_KEY")):
+        return []
+    return [html.A("Forget the access key", href=LOGOUT_PATH, className="hc-footer__key")]
 
 
 def _register_shell_callbacks(app: dash.Dash) -> None:
