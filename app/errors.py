@@ -95,7 +95,7 @@ def _http_error(err: HTTPException) -> Response:
     status = int(err.code or 500)
     if status == 413:
         limit = current_app.config.get("MAX_UPLOAD_BYTES")
-        cap = f" Files of at most {limit / 1048576:.1f} MB can be uploaded." if limit else ""
+        cap = f" Files of at most {_size(int(limit))} can be uploaded." if limit else ""
         return error_response(413, "The request is larger than this server accepts." + cap)
     if status == 405:
         allowed = ", ".join(sorted(getattr(err, "valid_methods", None) or ()))
@@ -114,6 +114,11 @@ def _http_error(err: HTTPException) -> Response:
     return error_response(status, message)
 
 
+def _size(n: int) -> str:
+    """Bytes as file managers show them (1 MB = 1024 x 1024 bytes)."""
+    return f"{n / 1048576:.1f} MB" if n >= 102_400 else f"{n / 1024:.0f} kB"
+
+
 def _unexpected(err: Exception) -> Response:
     if isinstance(err, HTTPException):  # pragma: no cover - Flask routes these to _http_error
         return _http_error(err)
@@ -122,7 +127,7 @@ def _unexpected(err: Exception) -> Response:
     ):
         return error_response(404, "There is no such script on this server.")
     if request.path == CALLBACK_PATH and isinstance(
-        err, _MALFORMED_CALLBACK | dash.exceptions.DashException
+        err, (*_MALFORMED_CALLBACK, dash.exceptions.DashException)
     ):
         logger.warning("Refused a malformed callback request: %s: %s", type(err).__name__, err)
         return error_response(400, "The callback request could not be used: it is malformed.")
