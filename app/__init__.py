@@ -41,7 +41,7 @@ from typing import Any
 import dash
 from dash import Input, Output, dcc, html
 from dash import _callback as _dash_callback
-from flask import Flask, redirect, request
+from flask import Flask
 
 import forecasting_core as fc
 from app.api import register_api
@@ -66,6 +66,8 @@ PAGES: tuple[tuple[str, str, str, int], ...] = (
     ("bench", "/bench", "Model Bench", 2),
     ("board", "/board", "Forecast Board", 3),
 )
+#: The home page (the team's saved analyses), before the steps and without a number.
+HOME_PAGE: tuple[str, str, str, int] = ("home", "/", "Home", 0)
 
 _INDEX = """<!DOCTYPE html>
 <html lang="en">
@@ -161,7 +163,6 @@ def create_app(config: Mapping[str, Any] | None = None) -> dash.Dash:
         on_error=_on_error,
     )
     _attach_pages(app)
-    server.before_request(_root_to_intake)
     app.layout = _shell_layout
     _register_shell_callbacks(app)
     install_error_handlers(app)
@@ -183,7 +184,7 @@ def _page_callbacks() -> tuple[tuple[Any, ...], tuple[tuple[str, Any], ...]]:
     """
     before_list = len(_dash_callback.GLOBAL_CALLBACK_LIST)
     before_keys = set(_dash_callback.GLOBAL_CALLBACK_MAP)
-    for module_name, path, name, step in PAGES:
+    for module_name, path, name, step in (HOME_PAGE, *PAGES):
         full = f"app.pages.{module_name}"
         try:
             module = importlib.import_module(full)
@@ -263,6 +264,13 @@ def _placeholder_layout(name: str, step: int) -> html.Div:
 def _shell_layout() -> html.Div:
     nav = [
         dcc.Link(
+            html.Span(HOME_PAGE[2], className="hc-nav__home"),
+            href=HOME_PAGE[1],
+            id=f"hc-nav-{HOME_PAGE[0]}",
+            className="hc-nav__link",
+        )
+    ] + [
+        dcc.Link(
             [
                 html.Span(str(step), className="hc-nav__num"),
                 html.Span(name, className="hc-nav__name"),
@@ -289,7 +297,7 @@ def _shell_layout() -> html.Div:
                             ),
                             html.Span("Haulcast", className="hc-brand__name"),
                         ],
-                        href="/intake",
+                        href="/",
                         className="hc-brand",
                         id="hc-brand",
                     ),
@@ -371,23 +379,15 @@ def _register_shell_callbacks(app: dash.Dash) -> None:
         ]
 
     @app.callback(
-        [Output(f"hc-nav-{module}", "className") for module, *_ in PAGES],
+        [Output(f"hc-nav-{module}", "className") for module, *_ in (HOME_PAGE, *PAGES)],
         Input("hc-url", "pathname"),
     )
     def mark_current(pathname: str | None) -> list[str]:
-        path = (pathname or "/").rstrip("/") or "/intake"
+        path = (pathname or "/").rstrip("/") or "/"
         return [
             "hc-nav__link hc-nav__link--current" if path == page_path else "hc-nav__link"
-            for _module, page_path, *_ in PAGES
+            for _module, page_path, *_ in (HOME_PAGE, *PAGES)
         ]
-
-
-def _root_to_intake() -> Any:
-    """``/`` opens Intake (the team-server home page will take ``/`` over)."""
-    if request.path == "/":
-        query = request.query_string.decode("latin-1")
-        return redirect("/intake" + (f"?{query}" if query else ""), code=302)
-    return None
 
 
 def _on_error(err: Exception) -> None:

@@ -84,6 +84,57 @@ def _now() -> str:
     return _dt.datetime.now(_dt.UTC).strftime("%Y-%m-%d %H:%M UTC")
 
 
+def _when(iso: Any) -> str:
+    """An ISO 8601 UTC time as ``2026-12-01 21:04 UTC`` (the text itself when unreadable)."""
+    if not iso:
+        return ""
+    try:
+        moment = _dt.datetime.fromisoformat(str(iso).replace("Z", "+00:00"))
+    except ValueError:
+        return str(iso)
+    if moment.tzinfo is not None:
+        moment = moment.astimezone(_dt.UTC)
+    return moment.strftime("%Y-%m-%d %H:%M UTC")
+
+
+def analysis_lines(analysis: Mapping[str, Any]) -> list[str]:
+    """A saved analysis as plain lines for exports: what it is, its status and every sign-off.
+
+    Parameters
+    ----------
+    analysis : Mapping
+        ``Analysis.to_dict()`` from the store: ``id, version, title, season, status, author,
+        created_at, published_at, signoffs`` (each ``name, role, note, signed_at``).
+
+    Returns
+    -------
+    list of str
+        ``analysis: ...``, ``analysis id: ...``, ``status: ...`` and one ``sign-off: ...`` line
+        per sign-off, oldest first (``sign-offs: none`` when there are none).
+    """
+    status = str(analysis.get("status") or "draft")
+    if status == "published":
+        state = f"published {_when(analysis.get('published_at'))}".strip()
+    else:
+        state = "draft, not published"
+    lines = [
+        f"analysis: {analysis.get('title') or analysis.get('series') or ''}",
+        f"analysis id: {analysis.get('id', '')}",
+        f"analysis version: {analysis.get('version', '')}",
+        f"season: {analysis.get('season') or ''}",
+        f"status: {state}",
+        f"saved by: {analysis.get('author') or ''}, {_when(analysis.get('created_at'))}",
+    ]
+    signoffs = list(analysis.get("signoffs") or ())
+    if status == "published" and not signoffs:
+        lines.append("sign-offs: none")
+    for s in signoffs:
+        role = f" ({s.get('role')})" if s.get("role") else ""
+        note = f": {s.get('note')}" if s.get("note") else ""
+        lines.append(f"sign-off: {_when(s.get('signed_at'))}, {s.get('name', '')}{role}{note}")
+    return lines
+
+
 def export_meta(
     forecast: Forecast,
     comparison: Comparison | None = None,
@@ -121,11 +172,13 @@ def forecast_csv(
     unit: str | None = None,
     dataset_hash: str | None = None,
     dataset_name: str | None = None,
+    analysis: Mapping[str, Any] | None = None,
 ) -> str:
     """The forecast table as CSV text with a commented header.
 
     The header lines start with ``#`` (``pandas.read_csv(..., comment="#")`` skips them):
-    what produced the forecast, then every caution. Then one row per step: ``time, step,
+    what produced the forecast, the saved analysis and its sign-offs when ``analysis`` is
+    given (see :func:`analysis_lines`), then every caution. Then one row per step: ``time, step,
     mean, median, lo{level}, hi{level}, ..., prob_below_reference`` (probability 0..1, empty
     without a reference level). Every cell goes through :func:`neutralise_cell`.
 
@@ -140,6 +193,8 @@ def forecast_csv(
     )
     header = ["Haulcast forecast"]
     header += [f"{key}: {value}" for key, value in meta.items() if value != ""]
+    if analysis is not None:
+        header += analysis_lines(analysis)
     header += [f"caution: {c}" for c in (forecast.cautions or CAUTIONS)]
     for line in header:
         buf.write(_comment_line(line) + "\r\n")
@@ -192,6 +247,8 @@ th { background: #f4f6f8; }
 td.l, th.l { text-align: left; }
 .meta td { text-align: left; }
 code { font-size: 12px; }
+.analysis { background: #f4f6f8; padding: 8px 16px; margin: 12px 0; }
+.signoffs li { margin: 4px 0; }
 """
 
 
@@ -284,6 +341,42 @@ def _meta_table(pairs: Mapping[str, Any]) -> str:
     return f'<table class="meta"><tbody>{rows}</tbody></table>'
 
 
+def _analysis_html(analysis: Mapping[str, Any]) -> str:
+    """The saved analysis block of the report: what it is, then the dated sign-offs."""
+    e = html.escape
+    status = str(analysis.get("status") or "draft")
+    state = (
+        f"published {_when(analysis.get('published_at'))}"
+        if status == "published"
+        else "draft, not published"
+    )
+    title = analysis.get("title") or analysis.get("series") or ""
+    parts = [
+        "<section class='analysis'>",
+        f"<p><strong>Saved analysis:</strong> {e(str(title))} &middot; version "
+        f"{e(str(analysis.get('version', '')))} &middot; season {e(str(analysis.get('season') or ''))}"
+        f" &middot; {e(state)} &middot; saved by {e(str(analysis.get('author') or ''))} "
+        f"{e(_when(analysis.get('created_at')))}</p>",
+        f"<p class='sub'>Analysis id <code>{e(str(analysis.get('id', '')))}</code></p>",
+    ]
+    signoffs = list(analysis.get("signoffs") or ())
+    if status == "published":
+        parts.append("<h2>Sign-offs</h2>")
+        if signoffs:
+            items = "".join(
+                f"<li>{e(_when(s.get('signed_at')))} &mdash; <strong>{e(str(s.get('name', '')))}</strong>"
+                + (f" ({e(str(s.get('role')))})" if s.get("role") else "")
+                + (f": {e(str(s.get('note')))}" if s.get("note") else "")
+                + "</li>"
+                for s in signoffs
+            )
+            parts.append(f"<ol class='signoffs'>{items}</ol>")
+        else:
+            parts.append("<p>No sign-offs yet.</p>")
+    parts.append("</section>")
+    return "".join(parts)
+
+
 def report_html(
     forecast: Forecast,
     comparison: Comparison | None = None,
@@ -294,6 +387,7 @@ def report_html(
     dataset_name: str | None = None,
     settings: Mapping[str, Any] | None = None,
     summary: Sequence[str] | None = None,
+    analysis: Mapping[str, Any] | None = None,
 ) -> str:
     """A standalone HTML report that opens offline.
 
@@ -309,6 +403,9 @@ def report_html(
         Model Bench settings (default: ``comparison.settings``).
     summary : sequence of str, optional
         Sentences for the top (default: :func:`app.wording.forecast_summary`).
+    analysis : Mapping, optional
+        The saved analysis this forecast is (``Analysis.to_dict()``): its title, version,
+        status and the dated list of sign-offs appear near the top.
 
     Returns
     -------
@@ -328,6 +425,7 @@ def report_html(
         f"<style>{_REPORT_CSS}</style></head><body><main>",
         f"<h1>Forecast report: {e(forecast.series_name)}</h1>",
         f"<p class='sub'>Haulcast, generated {e(meta['generated'])} &middot; model {e(forecast.model)}</p>",
+        _analysis_html(analysis) if analysis is not None else "",
         "<section class='summary'>" + "".join(f"<p>{e(s)}</p>" for s in sentences) + "</section>",
         "<section class='cautions'><strong>Read before use</strong>"
         + "".join(f"<p>{e(c)}</p>" for c in (forecast.cautions or CAUTIONS))

@@ -8,7 +8,8 @@ The store holds ids and settings only, never data::
      "bench": dict | None,         # Model Bench settings
      "model": str | None,          # chosen candidate label
      "reference": float | None,    # reference level on the original scale
-     "uploads": [str, ...]}        # dataset ids uploaded in this browser session
+     "analysis": str | None,       # id of the saved analysis being looked at (app.store)
+     "uploads": [str, ...]}        # dataset ids uploaded (or opened from a saved analysis)
 
 Pages write it with ``Output("hc-selection", "data", allow_duplicate=True)`` and
 ``prevent_initial_call=True``, starting from the incoming ``State("hc-selection", "data")``
@@ -32,6 +33,7 @@ DEFAULT_SELECTION: dict[str, Any] = {
     "bench": None,
     "model": None,
     "reference": None,
+    "analysis": None,
     "uploads": [],
 }
 
@@ -46,16 +48,18 @@ def update_selection(data: Mapping[str, Any] | None, **changes: Any) -> dict[str
 
     Changing the dataset clears the series, model and reference (they belong to the old
     dataset); changing the series clears model and reference; changing the transform or
-    the bench settings clears the model.
+    the bench settings clears the model. Changing the dataset or the series also leaves the
+    saved analysis being looked at (``analysis``); other changes keep it, so saving them
+    makes a new version of it.
     """
     out = empty_selection()
     if isinstance(data, Mapping):
         out.update({k: v for k, v in data.items() if k in DEFAULT_SELECTION})
         out["uploads"] = list(out.get("uploads") or [])
     if "dataset_id" in changes and changes["dataset_id"] != out["dataset_id"]:
-        out.update(series=None, model=None, reference=None)
+        out.update(series=None, model=None, reference=None, analysis=None)
     if "series" in changes and changes["series"] != out["series"]:
-        out.update(model=None, reference=None)
+        out.update(model=None, reference=None, analysis=None)
     if ("transform" in changes and changes["transform"] != out["transform"]) or (
         "bench" in changes and changes["bench"] != out["bench"]
     ):
@@ -96,7 +100,9 @@ def resolve_selection(data: Mapping[str, Any] | None, store: Any | None = None) 
         is_demo = True
     elif not store.visible(out["dataset_id"], uploads):
         # unknown here, or another session's upload: never open it; fall back to the demo
-        out.update(dataset_id=store.default_id(), series=None, model=None, reference=None)
+        out.update(
+            dataset_id=store.default_id(), series=None, model=None, reference=None, analysis=None
+        )
         is_demo = True
     if out["transform"] not in TRANSFORMS:
         out["transform"] = "auto"
@@ -106,7 +112,9 @@ def resolve_selection(data: Mapping[str, Any] | None, store: Any | None = None) 
         except Exception:  # noqa: BLE001 - an unreadable table shows its own alert on Intake
             usable = []
         if out["series"] not in usable:
-            out.update(series=usable[0] if usable else None, model=None, reference=None)
+            out.update(
+                series=usable[0] if usable else None, model=None, reference=None, analysis=None
+            )
     else:
         out["series"] = None
     out["is_demo"] = is_demo

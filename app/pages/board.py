@@ -3,6 +3,9 @@
 The board follows the model picked on the Model Bench (``hc-selection["model"]``; the best by
 AICc when none was picked) and reads the same memoized comparison. ``?present=1`` (or the
 presentation button) switches to large type with the technical panels hidden.
+``?analysis=<id>`` opens a saved analysis: its dataset, series and settings are restored and
+the forecast is recomputed from them (the saved-analysis panel, :mod:`app.board_saved`, says
+whether the numbers match the saved ones).
 """
 
 from __future__ import annotations
@@ -15,7 +18,6 @@ from typing import Any
 import dash
 import plotly.graph_objects as go
 from dash import (
-    ClientsideFunction,
     Input,
     Output,
     State,
@@ -28,7 +30,7 @@ from dash import (
 from dash.exceptions import PreventUpdate
 
 import forecasting_core as fc
-from app import export, figures, tables, wording
+from app import board_saved, export, figures, saved, saved_views, tables, wording
 from app.analysis import LEVELS, board_state, changed_selection, comparison_key, parse_reference
 from app.cache import cache, get_comparison
 from app.state import SELECTION_ID
@@ -174,9 +176,40 @@ def _graph(graph_id: str, name: str, height: int) -> dcc.Graph:
     )
 
 
-def layout(present: str | None = None, **_query: Any) -> html.Div:
-    """The Forecast Board page (``?present=1`` opens it in presentation mode)."""
+def _opened(analysis: str | None) -> tuple[dict[str, Any] | None, Any]:
+    """The ``board-open`` store for ``?analysis=<id>`` and an alert when it cannot be opened."""
+    if analysis is None:
+        return None, None
+    from app.store import get_store
+
+    try:
+        found = get_store().get_analysis(str(analysis).strip().lower())
+    except fc.InputError as err:
+        return None, alert(
+            f"The analysis in this link cannot be opened: {err} The board shows this "
+            "browser's own selection instead.",
+            "warning",
+            title="Saved analysis",
+        )
+    return board_saved.opened_store(found), None
+
+
+def _record(sel: Mapping[str, Any]) -> Any:
+    """The forecast record panel (past published forecasts of this series), when available."""
+    try:
+        from app.record_views import record_section
+    except ImportError:
+        return None
+    from app.store import get_store
+
+    return record_section(get_store(), sel["dataset_id"], sel["series"])
+
+
+def layout(present: str | None = None, analysis: str | None = None, **_query: Any) -> html.Div:
+    """The Forecast Board page (``?present=1``: presentation mode; ``?analysis=<id>``: open a
+    saved analysis)."""
     on = str(present or "").strip().lower() in ("1", "true", "yes", "on")
+    opened, note = _opened(analysis)
     return html.Div(
         [
             dcc.Store(id="board-mount", data=True),
@@ -199,6 +232,7 @@ def layout(present: str | None = None, **_query: Any) -> html.Div:
                 className="board-head",
             ),
             html.Div(id="board-alert"),
+            note,
             dcc.Loading(
                 [
                     section(
@@ -261,6 +295,8 @@ def layout(present: str | None = None, **_query: Any) -> html.Div:
                 delay_show=150,
                 overlay_style={"visibility": "visible", "opacity": 0.35},
             ),
+            saved_views.saved_section(opened),
+            html.Div(id="board-record"),
             section(
                 "Export",
                 html.Div(
@@ -300,12 +336,18 @@ def layout(present: str | None = None, **_query: Any) -> html.Div:
 # ---------------------------------------------------------------------------------------------
 
 
-# In the browser (assets/bench_board.js, no round trip): the session's reference level.
+# In the browser (no round trip): the reference level of the analysis opened by link, else
+# the session's.
 clientside_callback(
-    ClientsideFunction(namespace="haulcast_board", function_name="restoreReference"),
+    """function (_mount, data, opened) {
+        var sel = (opened && opened.selection) ? opened.selection : data;
+        var r = sel ? sel.reference : null;
+        return (typeof r === "number" && isFinite(r)) ? r : null;
+    }""",
     Output("board-reference", "value"),
     Input("board-mount", "data"),
     State(SELECTION_ID, "data"),
+    State(saved_views.OPEN_ID, "data"),
 )
 
 
@@ -337,13 +379,21 @@ def toggle_present(_n: int, on: bool | None) -> list[Any]:
     Input("board-reference", "value"),
     Input("board-present", "data"),
     State(SELECTION_ID, "data"),
+    State(saved_views.OPEN_ID, "data"),
 )
 @guarded("drawing the forecast", outputs=7, alert_at=6)
-def render(reference: Any, present: bool | None, data: Mapping[str, Any] | None) -> list[Any]:
-    state = board_state(data, reference)
+def render(
+    reference: Any,
+    present: bool | None,
+    data: Mapping[str, Any] | None,
+    opened: Mapping[str, Any] | None = None,
+) -> list[Any]:
+    state = board_state(saved.overlay(data, opened), reference)
     forecast = state["forecast"]
     sentences = wording.forecast_summary(forecast, state["comparison"], unit=state["unit"])
     how = "picked on the Model Bench" if state["picked"] else "best by AICc on the Model Bench"
+    if state["selection"].get("analysis"):
+        how = "from the saved analysis"
     model = [
         html.Span("Model: ", className="hc-muted"),
         html.Strong(state["candidate"].label, id="board-model-label"),
@@ -369,17 +419,22 @@ def _reference_notes(forecast: fc.Forecast) -> Any:
     Output(SELECTION_ID, "data", allow_duplicate=True),
     Input("board-reference", "value"),
     State(SELECTION_ID, "data"),
+    State(saved_views.OPEN_ID, "data"),
     prevent_initial_call=True,
 )
-def save_reference(reference: Any, data: Mapping[str, Any] | None) -> Any:
+def save_reference(
+    reference: Any, data: Mapping[str, Any] | None, opened: Mapping[str, Any] | None = None
+) -> Any:
     try:
         ref = parse_reference(reference)
     except fc.InputError:
         return no_update
-    current = (data or {}).get("reference") if isinstance(data, Mapping) else None
-    if current == ref:
+    # an analysis opened by link on this visit: its selection, so this write agrees with the
+    # one board_saved.open_analysis makes whichever lands first
+    base = saved.overlay(data, opened)
+    if isinstance(data, Mapping) and all(data.get(k) == v for k, v in {**base, "reference": ref}.items()):
         raise PreventUpdate
-    return changed_selection(data, reference=ref)
+    return changed_selection(base, reference=ref)
 
 
 @callback(
@@ -388,19 +443,23 @@ def save_reference(reference: Any, data: Mapping[str, Any] | None) -> Any:
     Input("board-download-csv", "n_clicks"),
     State("board-reference", "value"),
     State(SELECTION_ID, "data"),
+    State(saved_views.OPEN_ID, "data"),
     prevent_initial_call=True,
 )
 @guarded("writing the forecast CSV", outputs=2, alert_at=1)
-def download_csv(n: int, reference: Any, data: Mapping[str, Any] | None) -> list[Any]:
+def download_csv(
+    n: int, reference: Any, data: Mapping[str, Any] | None, opened: Mapping[str, Any] | None
+) -> list[Any]:
     if not n:
         raise PreventUpdate
-    state = board_state(data, reference)
+    state = board_state(saved.overlay(data, opened), reference)
     text = export.forecast_csv(
         state["forecast"],
         state["comparison"],
         unit=state["unit"],
         dataset_hash=state["selection"]["dataset_id"],
         dataset_name=state["dataset_name"],
+        analysis=_export_analysis(state),
     )
     name = f"{_safe_name(state['forecast'].series_name)}_forecast.csv"
     return [dcc.send_string(text, name, type="text/csv"), None]
@@ -412,13 +471,16 @@ def download_csv(n: int, reference: Any, data: Mapping[str, Any] | None) -> list
     Input("board-download-html", "n_clicks"),
     State("board-reference", "value"),
     State(SELECTION_ID, "data"),
+    State(saved_views.OPEN_ID, "data"),
     prevent_initial_call=True,
 )
 @guarded("writing the HTML report", outputs=2, alert_at=1)
-def download_html(n: int, reference: Any, data: Mapping[str, Any] | None) -> list[Any]:
+def download_html(
+    n: int, reference: Any, data: Mapping[str, Any] | None, opened: Mapping[str, Any] | None
+) -> list[Any]:
     if not n:
         raise PreventUpdate
-    state = board_state(data, reference)
+    state = board_state(saved.overlay(data, opened), reference)
     forecast, comparison = state["forecast"], state["comparison"]
     figs: list[tuple[str, go.Figure]] = [("Forecast", _fan(state, False))]
     if forecast.reference is not None:
@@ -445,6 +507,29 @@ def download_html(n: int, reference: Any, data: Mapping[str, Any] | None) -> lis
         unit=state["unit"],
         dataset_hash=state["selection"]["dataset_id"],
         dataset_name=state["dataset_name"],
+        analysis=_export_analysis(state),
     )
     name = f"{_safe_name(forecast.series_name)}_report.html"
     return [dcc.send_string(page, name, type="text/html"), None]
+
+
+def _export_analysis(state: Mapping[str, Any]) -> dict[str, Any] | None:
+    """The saved analysis the exports describe: the one being looked at, unless changed since."""
+    from app.store import get_store
+
+    analysis, changed, _settings = board_saved.looking_at(state, get_store())
+    return None if analysis is None or changed else analysis.to_dict()
+
+
+@callback(
+    Output("board-record", "children"),
+    Input("board-table", "children"),
+    State(SELECTION_ID, "data"),
+    State(saved_views.OPEN_ID, "data"),
+    prevent_initial_call=True,
+)
+@guarded("showing the forecast record", outputs=1)
+def show_record(_table: Any, data: Mapping[str, Any] | None, opened: Mapping[str, Any] | None) -> Any:
+    from app.state import resolve_selection
+
+    return _record(resolve_selection(saved.overlay(data, opened)))

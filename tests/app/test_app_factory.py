@@ -86,10 +86,12 @@ def test_an_unknown_address_gets_our_not_found_page(client):
     assert page["title"] == "Page not found \u00b7 Haulcast"
 
 
-def test_root_redirects_to_intake_keeping_the_query(client):
+def test_root_is_the_home_page_of_saved_analyses(client):
     response = client.get("/?present=1")
-    assert response.status_code == 302
-    assert response.headers["Location"].endswith("/intake?present=1")
+    assert response.status_code == 200
+    page = dash.page_registry["app.pages.home"]
+    assert page["path"] == "/"
+    assert page["title"] == "Saved analyses \u00b7 Haulcast"
 
 
 def test_the_shell_keeps_one_session_store_for_the_selection(app):

@@ -197,3 +197,63 @@ def test_report_describes_the_picked_model_not_the_best(comparison):
     page = report_html(picked, comparison)
     assert f"Residual checks ({other.label})" in page
     assert f"<p>{other.label}:" in page.replace("&#x27;", "'")
+
+
+# -- A saved analysis and its sign-offs in both exports ----------------------------------------
+
+SIGNED = {
+    "id": "0123456789abcdef0123456789abcdef",
+    "version": 2,
+    "parent_id": "f" * 32,
+    "series": "nile",
+    "title": "Nile flow outlook",
+    "season": "1971",
+    "status": "published",
+    "author": "Ana Ortiz",
+    "created_at": "2026-12-01T20:10:00+00:00",
+    "published_at": "2026-12-01T20:15:00+00:00",
+    "signoffs": [
+        {"name": "Ben Ito", "role": "Manager", "note": "Fine for the meeting", "signed_at": "2026-12-01T20:30:00+00:00"},
+        {"name": "=HYPERLINK(\"x\")", "role": "+role", "note": "@note, -cmd", "signed_at": "2026-12-01T20:40:00+00:00"},
+    ],
+}
+
+
+def test_csv_lists_the_analysis_and_each_dated_signoff_before_the_cautions(forecast):
+    text = forecast_csv(forecast, analysis=SIGNED)
+    header = [line for line in text.splitlines() if line.startswith("#")]
+    joined = "\n".join(header)
+    assert "# analysis: Nile flow outlook" in joined
+    assert "# analysis version: 2" in joined
+    assert "# status: published 2026-12-01 20:15 UTC" in joined
+    assert "# sign-off: 2026-12-01 20:30 UTC, Ben Ito (Manager): Fine for the meeting" in joined
+    first_caution = next(i for i, line in enumerate(header) if line.startswith("# caution:"))
+    last_signoff = max(i for i, line in enumerate(header) if line.startswith("# sign-off:"))
+    assert last_signoff < first_caution
+    for caution in fc.CAUTIONS:
+        assert caution.replace('"', "'") in text
+    # the table still reads back, and no cell of any header line is a formula
+    table = pd.read_csv(io.StringIO(text), comment="#")
+    assert len(table) == len(forecast.table)
+    for row in csv.reader(io.StringIO(text)):
+        for cell in row[1:]:
+            assert not cell.lstrip().startswith(FORMULA_START) or PLAIN_NUMBER.match(cell.strip())
+
+
+def test_csv_of_a_draft_says_it_is_not_published(forecast):
+    draft = {**SIGNED, "status": "draft", "published_at": None, "signoffs": []}
+    text = forecast_csv(forecast, analysis=draft)
+    assert "# status: draft, not published" in text
+    assert "sign-off" not in text
+
+
+def test_report_shows_the_signoffs_as_a_dated_list_with_the_cautions(forecast, comparison):
+    hostile = {**SIGNED, "title": "<script>alert(1)</script>"}
+    page = report_html(forecast, comparison, analysis=hostile)
+    assert "<h2>Sign-offs</h2>" in page
+    assert "2026-12-01 20:30 UTC &mdash; <strong>Ben Ito</strong> (Manager): Fine for the meeting" in page
+    assert page.index("Ben Ito") < page.index("=HYPERLINK")  # oldest first
+    assert "<script>alert(1)</script>" not in page
+    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in page
+    for caution in fc.CAUTIONS:
+        assert caution in page

@@ -38,10 +38,11 @@ def test_each_page_loads_directly_by_url(page, open_page, screenshot, path, titl
         screenshot(page, "intake")
 
 
-def test_root_opens_intake(page, app_url):
+def test_root_opens_the_home_page(page, app_url):
     page.goto(app_url + "/")
-    expect(page).to_have_url(app_url + "/intake")
-    expect(page.locator("h1.hc-page__title")).to_have_text("Intake")
+    expect(page).to_have_url(app_url + "/")
+    expect(page.locator("h1.hc-page__title")).to_have_text("Saved analyses")
+    expect(page.locator(".hc-nav__link--current .hc-nav__home")).to_have_text("Home")
 
 
 def test_uploading_a_sample_csv_lists_its_series_and_gap_years(

@@ -1,0 +1,339 @@
+"""The Forecast Board's saved-analysis panel: save, publish, sign off, revise.
+
+The board page (:mod:`app.pages.board`) places :func:`app.saved_views.saved_section` below the forecast and
+imports this module, which registers the panel's callbacks. What the board is looking at is
+``hc-selection["analysis"]`` (the id of a saved analysis) plus, on a visit opened by link
+(``/board?analysis=<id>``), the ``board-open`` store holding that analysis' selection
+(see :func:`app.saved.overlay`). Published analyses are never changed: saving changed settings
+on one makes a new version linked to it.
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Mapping
+from typing import Any
+
+from dash import Input, Output, State, callback, clientside_callback
+from dash.exceptions import PreventUpdate
+
+import forecasting_core as fc
+from app import saved
+from app.analysis import board_state
+from app.saved_views import (
+    AUTHOR_ID,
+    HIDE,
+    OPEN_ID,
+    SHOW,
+    optional,
+    required,
+    status_panel,
+)
+from app.state import SELECTION_ID
+from app.ui import alert, guarded
+
+# ---------------------------------------------------------------------------------------------
+# Pure pieces
+# ---------------------------------------------------------------------------------------------
+
+
+def opened_store(analysis: Any, data: Mapping[str, Any] | None = None) -> dict[str, Any]:
+    """The ``board-open`` value for an analysis (JSON-safe)."""
+    sel = saved.selection_from_analysis(analysis, data)
+    sel.pop("is_demo", None)
+    return {"id": analysis.id, "selection": sel, "tick": time.time()}
+
+
+def looking_at(state: Mapping[str, Any], store: Any) -> tuple[Any | None, bool, dict[str, Any]]:
+    """The analysis the board is looking at, whether the settings changed since it was saved,
+    and the current settings (see :func:`app.saved.settings_from_selection`).
+
+    Returns ``(None, True, settings)`` when no saved analysis is being looked at (or it is
+    no longer on this server).
+    """
+    forecast: fc.Forecast = state["forecast"]
+    current = saved.settings_from_selection(
+        state["selection"], forecast.reference, state["candidate"].label
+    )
+    analysis_id = state["selection"].get("analysis")
+    if not saved.looks_like_id(analysis_id):
+        return None, True, current
+    try:
+        analysis = store.get_analysis(analysis_id)
+    except fc.InputError:
+        return None, True, current
+    changed = not (
+        analysis.dataset_id == state["selection"]["dataset_id"]
+        and analysis.series == state["selection"]["series"]
+        and saved.same_settings(analysis.settings, current)
+    )
+    return analysis, changed, current
+
+
+# ---------------------------------------------------------------------------------------------
+# Callbacks
+# ---------------------------------------------------------------------------------------------
+
+
+@callback(
+    Output(SELECTION_ID, "data", allow_duplicate=True),
+    Input(OPEN_ID, "data"),
+    State(SELECTION_ID, "data"),
+    prevent_initial_call="initial_duplicate",
+)
+def open_analysis(opened: Mapping[str, Any] | None, data: Mapping[str, Any] | None) -> Any:
+    """An analysis opened by link or just saved becomes the session's selection."""
+    if not isinstance(opened, Mapping) or not opened.get("selection"):
+        raise PreventUpdate
+    sel = saved.overlay(data, opened)
+    if isinstance(data, Mapping) and all(data.get(k) == v for k, v in sel.items()):
+        raise PreventUpdate
+    return sel
+
+
+# The name typed last in this browser (localStorage) into the name boxes, without a round trip.
+clientside_callback(
+    """function (_mount, author) {
+        var name = (author && typeof author.name === "string") ? author.name : "";
+        return [name, name];
+    }""",
+    Output("board-save-name", "value"),
+    Output("board-signoff-name", "value"),
+    Input("board-mount", "data"),
+    State(AUTHOR_ID, "data"),
+)
+
+# The address bar names the analysis being looked at, so it can be copied as a link.
+clientside_callback(
+    """function (opened) {
+        if (opened && typeof opened.id === "string" && /^[0-9a-f]{32}$/.test(opened.id)) {
+            var want = "/board?analysis=" + opened.id;
+            if (window.location.pathname + window.location.search !== want) {
+                window.history.replaceState(window.history.state, "", want);
+            }
+        }
+        return window.dash_clientside.no_update;
+    }""",
+    Output("board-open-note", "title"),
+    Input(OPEN_ID, "data"),
+)
+
+
+@callback(
+    Output("board-saved-status", "children"),
+    Output("board-publish-box", "style"),
+    Output("board-signoff-box", "style"),
+    Output("board-save", "children"),
+    Output("board-save-season-hint", "children"),
+    Output("board-save-title", "placeholder"),
+    Input("board-table", "children"),
+    Input(OPEN_ID, "data"),
+    State("board-reference", "value"),
+    State(SELECTION_ID, "data"),
+    prevent_initial_call=True,
+)
+@guarded("showing the saved analysis", outputs=6, alert_at=0)
+def show_saved(
+    _table: Any, opened: Mapping[str, Any] | None, reference: Any, data: Mapping[str, Any] | None
+) -> list[Any]:
+    from flask import request
+
+    from app.store import get_store
+
+    store = get_store()
+    state = board_state(saved.overlay(data, opened), reference)
+    analysis, changed, _current = looking_at(state, store)
+    fdict = state["forecast"].to_dict()
+    season = saved.season_label(fdict)
+    hint = (
+        f"Blank: the first forecast period ({season})."
+        if season
+        else "Blank: the first forecast period."
+    )
+    if analysis is None:
+        return [
+            status_panel(None, True, [], None),
+            HIDE,
+            HIDE,
+            "Save analysis",
+            hint,
+            "e.g. Hake 2026 advice",
+        ]
+    differences = [] if changed else saved.forecast_differences(analysis.forecast, fdict)
+    history = getattr(store, "history", None)
+    newer = (
+        saved.newest_version(analysis, history(analysis.id))
+        if history is not None
+        else saved.newest_in_chain(analysis, store.list_analyses(series=analysis.series))
+    )
+    panel = status_panel(analysis, changed, differences, newer, request.host_url.rstrip("/"))
+    publish = SHOW if analysis.status == "draft" and not changed else HIDE
+    signoff = SHOW if analysis.status == "published" and not changed else HIDE
+    label = f"Save as version {analysis.version + 1}" if changed else "Save analysis"
+    return [panel, publish, signoff, label, hint, analysis.title or "e.g. Hake 2026 advice"]
+
+
+@callback(
+    Output(OPEN_ID, "data", allow_duplicate=True),
+    Output(AUTHOR_ID, "data", allow_duplicate=True),
+    Output("board-saved-msg", "children", allow_duplicate=True),
+    Input("board-save", "n_clicks"),
+    State("board-save-title", "value"),
+    State("board-save-name", "value"),
+    State("board-save-season", "value"),
+    State("board-reference", "value"),
+    State(SELECTION_ID, "data"),
+    State(OPEN_ID, "data"),
+    prevent_initial_call=True,
+)
+@guarded("saving the analysis", outputs=3, alert_at=2)
+def save_analysis(
+    n: int,
+    title: Any,
+    name: Any,
+    season: Any,
+    reference: Any,
+    data: Mapping[str, Any] | None,
+    opened: Mapping[str, Any] | None,
+) -> list[Any]:
+    from app.store import get_store
+
+    if not n:
+        raise PreventUpdate
+    author = required(name, "Your name")
+    title = optional(title, "Title", 120)
+    season = optional(season, "Season", 40)
+    store = get_store()
+    state = board_state(saved.overlay(data, opened), reference)
+    analysis, changed, settings = looking_at(state, store)
+    fdict = state["forecast"].to_dict()
+    season = season or saved.season_label(fdict)
+    model = state["candidate"].label
+    if analysis is not None:
+        if (
+            not changed
+            and (title or analysis.title) == analysis.title
+            and season == analysis.season
+        ):
+            raise fc.InputError(
+                f"nothing changed since version {analysis.version} was saved. Change a setting, "
+                "the title or the season first"
+                + (
+                    ", or sign it off below."
+                    if analysis.status == "published"
+                    else ", or publish it."
+                )
+            )
+        new = store.revise(
+            analysis.id,
+            author=author,
+            settings=settings,
+            model=model,
+            forecast=fdict,
+            title=title or analysis.title,
+            season=season,
+        )
+        message = (
+            f"Saved as version {new.version}, a draft linked to version {analysis.version}. "
+            "Publish it when it is ready."
+        )
+    else:
+        sel = state["selection"]
+        new = store.save_analysis(
+            dataset_id=sel["dataset_id"],
+            series=sel["series"],
+            settings=settings,
+            model=model,
+            forecast=fdict,
+            author=author,
+            title=title or f"{sel['series']} {season}".strip(),
+            season=season,
+        )
+        message = "Saved as a draft (version 1). Publish it when it is ready."
+    return [
+        opened_store(new, state["selection"]),
+        {"name": author},
+        alert(message, "ok", title="Saved"),
+    ]
+
+
+def _current(data: Mapping[str, Any] | None, opened: Mapping[str, Any] | None, store: Any) -> Any:
+    sel = saved.overlay(data, opened)
+    analysis_id = sel.get("analysis")
+    if not saved.looks_like_id(analysis_id):
+        raise fc.InputError("save the analysis first: nothing saved is open on the board.")
+    return store.get_analysis(analysis_id), sel
+
+
+@callback(
+    Output(OPEN_ID, "data", allow_duplicate=True),
+    Output(AUTHOR_ID, "data", allow_duplicate=True),
+    Output("board-saved-msg", "children", allow_duplicate=True),
+    Input("board-publish", "n_clicks"),
+    State("board-save-name", "value"),
+    State(SELECTION_ID, "data"),
+    State(OPEN_ID, "data"),
+    prevent_initial_call=True,
+)
+@guarded("publishing the analysis", outputs=3, alert_at=2)
+def publish(
+    n: int, name: Any, data: Mapping[str, Any] | None, opened: Mapping[str, Any] | None
+) -> list[Any]:
+    from app.store import get_store
+
+    if not n:
+        raise PreventUpdate
+    author = required(name, "Your name")
+    store = get_store()
+    analysis, sel = _current(data, opened, store)
+    done = store.publish(analysis.id, author=author)
+    return [
+        opened_store(done, sel),
+        {"name": author},
+        alert(
+            f"Version {done.version} is published: the team can open it by its link, and it "
+            "can be signed off.",
+            "ok",
+            title="Published",
+        ),
+    ]
+
+
+@callback(
+    Output(OPEN_ID, "data", allow_duplicate=True),
+    Output(AUTHOR_ID, "data", allow_duplicate=True),
+    Output("board-saved-msg", "children", allow_duplicate=True),
+    Output("board-signoff-note", "value"),
+    Input("board-signoff", "n_clicks"),
+    State("board-signoff-name", "value"),
+    State("board-signoff-role", "value"),
+    State("board-signoff-note", "value"),
+    State(SELECTION_ID, "data"),
+    State(OPEN_ID, "data"),
+    prevent_initial_call=True,
+)
+@guarded("signing off the analysis", outputs=4, alert_at=2)
+def sign_off(
+    n: int,
+    name: Any,
+    role: Any,
+    note: Any,
+    data: Mapping[str, Any] | None,
+    opened: Mapping[str, Any] | None,
+) -> list[Any]:
+    from app.store import get_store
+
+    if not n:
+        raise PreventUpdate
+    who = required(name, "Name")
+    role = required(role, "Role", 80)
+    note = optional(note, "Note", 500)
+    store = get_store()
+    analysis, sel = _current(data, opened, store)
+    done = store.add_signoff(analysis.id, name=who, role=role, note=note)
+    return [
+        opened_store(done, sel),
+        {"name": who},
+        alert(f"Signed off by {who} ({role}).", "ok", title="Signed off"),
+        "",
+    ]
