@@ -135,3 +135,64 @@ def test_a_benchmark_that_beats_the_chosen_model_is_a_warning():
     assert notes[0].startswith(
         "On the hindcast the long-run mean benchmark scored a lower MASE than last value + drift ("
     )
+
+
+def test_records_come_back_in_file_order_with_a_bounded_window(small_file):
+    from forecasting_core._batch import iter_batch
+
+    finished: list[str] = []
+    seen: list[str] = []
+    for record in iter_batch(
+        small_file, 2, transform="none", workers=2, window=2,
+        on_result=lambda r: finished.append(r["series"]), **SMALL,
+    ):  # fmt: skip
+        seen.append(record["series"])
+        # Never more than the window finished and not yet handed back (plus the unusable
+        # series, known before any task runs).
+        assert len(finished) - len(seen) <= 2 + 1
+    assert seen == ["cod_t", "ling_t", "skate_t"]
+    assert sorted(finished) == sorted(seen)
+
+
+@pytest.mark.skipif(
+    __import__("multiprocessing").get_start_method() != "fork",
+    reason="needs fork-started workers, which inherit the monkeypatched compare_models",
+)
+def test_a_worker_process_that_dies_takes_only_its_own_series(small_file, monkeypatch):
+    import os
+
+    real = search_mod.compare_models
+
+    def fatal(y, *args, **kwargs):
+        if y.name == "ling_t":
+            os._exit(3)  # the worker process stops dead, as on a crash or the OOM killer
+        return real(y, *args, **kwargs)
+
+    monkeypatch.setattr(search_mod, "compare_models", fatal)
+    records = run_batch(small_file, 2, transform="none", workers=2, **SMALL)
+    assert [r["series"] for r in records] == ["cod_t", "ling_t", "skate_t"]
+    assert "forecast" in records[0]
+    assert records[1]["error_kind"] == "internal"
+    assert "worker process stopped" in records[1]["error"]
+    assert records[2]["error_kind"] == "data"
+
+
+@pytest.mark.parametrize("count", [0, 1, 3])
+def test_streamed_json_list_is_byte_identical_to_json_dump(count):
+    import io
+
+    from forecasting_core._cli_models import JsonListWriter
+
+    items = [{"series": f"s{i}", "forecast": [{"step": 1, "mean": 1.5 * i}], "x": None} for i in range(count)]
+    out = io.StringIO()
+    writer = JsonListWriter(out)
+    for item in items:
+        writer.add(item)
+    writer.close()
+    # Reference: the standard library's own indent=2 output of the whole list.
+    assert out.getvalue() == json.dumps(items, indent=2) + "\n"
+
+
+def test_workers_and_scheduler_together_say_which_to_drop(small_file):
+    with pytest.raises(InputError, match="workers applies to local runs only"):
+        run_batch(small_file, 2, workers=2, scheduler="tcp://127.0.0.1:8786")
