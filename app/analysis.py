@@ -11,7 +11,7 @@ from collections.abc import Mapping
 from typing import Any
 
 import forecasting_core as fc
-from app.cache import get_comparison, settings_json
+from app.cache import get_comparison, get_forecast, settings_json
 from app.state import TRANSFORMS, resolve_selection, update_selection
 
 #: Model Bench settings a new session starts from (kept in ``hc-selection["bench"]``).
@@ -159,8 +159,8 @@ def board_state(data: Mapping[str, Any] | None, reference: Any) -> dict[str, Any
             "made. Change the settings on the Model Bench."
         )
     horizon = bench_settings(sel.get("bench"))["horizon"]
-    forecast = fc.make_forecast(
-        candidate, horizon=horizon, levels=LEVELS, reference=parse_reference(reference)
+    forecast = get_forecast(
+        *comparison_key(sel), candidate.label, horizon, LEVELS, parse_reference(reference)
     )
     store = get_store()
     info = store.load_table(sel["dataset_id"]).info.get(sel["series"])

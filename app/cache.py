@@ -5,6 +5,12 @@ session that asks the same question shares one computation, and nothing about a 
 kept on the server. The forecasting core's version is part of every key, so upgrading it
 never serves stale results.
 
+A comparison is kept in layers keyed only by what each depends on (see "comparisons, in
+layers" below): the order search, the hindcast on top of it, and per picked model its
+forecast and residual checks. A new horizon reruns only the hindcast; a new reference level
+only ``make_forecast``. Within one server process, concurrent requests for the same entry
+wait for the one computing it instead of computing it again.
+
 Configuration (keys of ``create_app(config)``):
 
 ``CACHE_TYPE``
@@ -20,7 +26,10 @@ Configuration (keys of ``create_app(config)``):
 from __future__ import annotations
 
 import json
-from collections.abc import Mapping
+import threading
+from collections.abc import Callable, Iterator, Mapping, Sequence
+from contextlib import contextmanager
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
@@ -71,6 +80,9 @@ def settings_json(settings: Mapping[str, Any] | None) -> str:
     return json.dumps(dict(settings or {}), sort_keys=True, separators=(",", ":"))
 
 
+_json = settings_json
+
+
 def _series(dataset_id: str, series: str):
     table = get_store().load_table(dataset_id)
     if series not in table.series:
@@ -81,11 +93,78 @@ def _series(dataset_id: str, series: str):
     return table.series[series]
 
 
-# -- comparisons ------------------------------------------------------------------------------
+# -- comparisons, in layers ---------------------------------------------------------------------
+#
+# A comparison is memoized in two layers, each keyed only by what it depends on:
+#
+# search layer   (dataset, series, every setting but the hindcast's)
+#                compare_models(..., hindcast=False): transform, differences, order search,
+#                benchmarks and the best model's residual checks;
+# hindcast layer (the search layer's key + horizon + hindcast origins)
+#                run_hindcast on the models compare_models replays (the best, up to two
+#                runners-up, the benchmarks).
+#
+# get_comparison joins the two into the Comparison a plain compare_models call returns (a test
+# holds them equal), so a new horizon or number of origins reruns only the hindcast. Forecasts
+# (get_forecast) and residual checks (get_residuals) of one picked model sit on the search layer.
+
+#: compare_models keywords only the hindcast depends on (the search layer never sees them).
+HINDCAST_SETTINGS = ("horizon", "hindcast_origins", "hindcast")
+
+_flight_guard = threading.Lock()
+_flights: dict[tuple[Any, ...], list[Any]] = {}
+
+
+@contextmanager
+def _single_flight(key: tuple[Any, ...]) -> Iterator[None]:
+    """Let one thread of this process compute ``key``; the others wait for it, then hit the cache."""
+    with _flight_guard:
+        entry = _flights.setdefault(key, [threading.Lock(), 0])
+        entry[1] += 1
+    try:
+        with entry[0]:
+            yield
+    finally:
+        with _flight_guard:
+            entry[1] -= 1
+            if entry[1] == 0:
+                _flights.pop(key, None)
+
+
+def split_settings(settings: Mapping[str, Any]) -> tuple[dict[str, Any], dict[str, Any]]:
+    """Split ``compare_models`` keywords into the search layer's and the hindcast layer's.
+
+    Returns
+    -------
+    (dict, dict)
+        Every keyword but :data:`HINDCAST_SETTINGS`; and ``{"horizon", "hindcast_origins",
+        "hindcast"}`` with ``compare_models``' defaults (5, None, True) filled in.
+
+    Raises
+    ------
+    forecasting_core.InputError
+        ``horizon`` or ``hindcast_origins`` out of the range ``compare_models`` accepts
+        (checked here, with the core's wording, because the search layer never sees them).
+    """
+    search = {k: v for k, v in settings.items() if k not in HINDCAST_SETTINGS}
+    hind = {
+        "horizon": settings.get("horizon", 5),
+        "hindcast_origins": settings.get("hindcast_origins"),
+        "hindcast": settings.get("hindcast", True),
+    }
+    _check_int("horizon", hind["horizon"], 1, 30)
+    if hind["hindcast_origins"] is not None:
+        _check_int("hindcast_origins", hind["hindcast_origins"], 1, 1000)
+    return search, hind
+
+
+def _check_int(name: str, value: Any, lo: int, hi: int) -> None:
+    if isinstance(value, bool) or not isinstance(value, int) or not lo <= value <= hi:
+        raise fc.InputError(f"{name} must be an integer from {lo} to {hi}. Got {value!r} instead.")
 
 
 def get_comparison(dataset_id: str, series: str, settings_json: str) -> fc.Comparison:
-    """:func:`forecasting_core.compare_models` for one series, memoized.
+    """:func:`forecasting_core.compare_models` for one series, memoized in layers.
 
     Parameters
     ----------
@@ -98,19 +177,146 @@ def get_comparison(dataset_id: str, series: str, settings_json: str) -> fc.Compa
         (e.g. ``{"horizon": 5, "transform": "auto"}``). Build it with :func:`settings_json`
         so the same settings always give the same key.
 
+    Returns
+    -------
+    forecasting_core.Comparison
+        Equal to ``compare_models(y, **settings)`` (its provenance time is the search's).
+        Changing ``horizon`` or ``hindcast_origins`` reruns only the hindcast.
+
     Raises
     ------
     forecasting_core.InputError
         Unknown dataset or series, settings not a JSON object, or a setting the core refuses.
         Errors are not cached.
     """
-    return _comparison(dataset_id, series, settings_json, fc.__version__)
+    search, hind = split_settings(parse_settings(settings_json))
+    key = _json(search)
+    base = get_search(dataset_id, series, key)
+    settings = {
+        **base.settings,
+        "horizon": hind["horizon"],
+        "hindcast": bool(hind["hindcast"]),
+        "hindcast_origins": hind["hindcast_origins"],
+    }
+    if not hind["hindcast"]:
+        return replace(base, settings=settings)
+    hindcast, warnings = _layer(
+        _hindcast_layer, dataset_id, series, key, hind["horizon"], hind["hindcast_origins"]
+    )
+    return replace(base, hindcast=hindcast, settings=settings, warnings=base.warnings + warnings)
+
+
+def get_search(dataset_id: str, series: str, search_json: str) -> fc.Comparison:
+    """The search layer: ``compare_models(y, **search, hindcast=False)``, memoized.
+
+    ``search_json`` is :func:`settings_json` of the settings without
+    :data:`HINDCAST_SETTINGS` (see :func:`split_settings`).
+    """
+    return _layer(_search_layer, dataset_id, series, search_json)
+
+
+def get_forecast(
+    dataset_id: str,
+    series: str,
+    settings_json: str,
+    label: str,
+    horizon: int,
+    levels: Sequence[int] = (50, 80, 95),
+    reference: float | None = None,
+) -> fc.Forecast:
+    """:func:`forecasting_core.make_forecast` of one candidate of a comparison, memoized.
+
+    Parameters
+    ----------
+    dataset_id, series, settings_json : str
+        As for :func:`get_comparison`; only the search layer's part matters.
+    label : str
+        Candidate label (``Candidate.label``).
+    horizon : int
+        Steps ahead at the series' frequency.
+    levels : sequence of int
+        Band levels in percent.
+    reference : float, optional
+        Reference level on the original scale; changing it reruns only ``make_forecast``.
+    """
+    search, _hind = split_settings(parse_settings(settings_json))
+    return _layer(
+        _forecast_layer,
+        dataset_id,
+        series,
+        _json(search),
+        label,
+        horizon,
+        tuple(int(x) for x in levels),
+        None if reference is None else float(reference),
+    )
+
+
+def get_residuals(dataset_id: str, series: str, settings_json: str, label: str) -> fc.ResidualReport:
+    """:func:`forecasting_core.check_residuals` of one candidate (the search's own for the best)."""
+    search, _hind = split_settings(parse_settings(settings_json))
+    return _layer(_residuals_layer, dataset_id, series, _json(search), label)
+
+
+def _layer(function: Callable[..., Any], *args: Any) -> Any:
+    with _single_flight((function.__name__, *args)):
+        return function(*args, fc.__version__)
 
 
 @cache.memoize()
-def _comparison(dataset_id: str, series: str, settings: str, core_version: str) -> fc.Comparison:
-    kwargs = _parse_settings(settings)
-    return fc.compare_models(_series(dataset_id, series), **kwargs)
+def _search_layer(dataset_id: str, series: str, search: str, core_version: str) -> fc.Comparison:
+    kwargs = parse_settings(search)
+    return fc.compare_models(_series(dataset_id, series), **kwargs, hindcast=False)
+
+
+@cache.memoize()
+def _hindcast_layer(
+    dataset_id: str,
+    series: str,
+    search: str,
+    horizon: int,
+    origins: int | None,
+    core_version: str,
+) -> tuple[fc.Hindcast | None, tuple[str, ...]]:
+    # the models and the error handling of compare_models' own hindcast step
+    base = get_search(dataset_id, series, search)
+    models = ([base.best] if base.best.ok else []) + list(base.accepted[1:3]) + list(base.benchmarks)
+    if not models:
+        return None, ()
+    try:
+        hindcast = fc.run_hindcast(
+            _series(dataset_id, series), models=models, horizon=horizon, origins=origins
+        )
+    except NotImplementedError:
+        return None, ()
+    except fc.InputError as exc:
+        return None, (f"Hindcast not run: {exc}",)
+    return hindcast, ()
+
+
+@cache.memoize()
+def _forecast_layer(
+    dataset_id: str,
+    series: str,
+    search: str,
+    label: str,
+    horizon: int,
+    levels: tuple[int, ...],
+    reference: float | None,
+    core_version: str,
+) -> fc.Forecast:
+    candidate = get_search(dataset_id, series, search).candidate(label)
+    return fc.make_forecast(candidate, horizon=horizon, levels=levels, reference=reference)
+
+
+@cache.memoize()
+def _residuals_layer(
+    dataset_id: str, series: str, search: str, label: str, core_version: str
+) -> fc.ResidualReport:
+    base = get_search(dataset_id, series, search)
+    if base.diagnostics is not None and base.diagnostics.model == label:
+        return base.diagnostics
+    return fc.check_residuals(base.candidate(label))
 
 
 # -- stationarity -----------------------------------------------------------------------------
@@ -149,7 +355,8 @@ def resolve_transform(y, transform: str) -> fc.TransformSpec:
     return fc.choose_transform(y, transform)
 
 
-def _parse_settings(settings: str) -> dict[str, Any]:
+def parse_settings(settings: str) -> dict[str, Any]:
+    """The settings dict of a settings JSON string (InputError when it is not a JSON object)."""
     try:
         kwargs = json.loads(settings) if settings else {}
     except (TypeError, ValueError) as err:

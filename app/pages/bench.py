@@ -28,7 +28,14 @@ from app.analysis import (
     comparison_for,
     comparison_key,
 )
-from app.cache import cache, get_comparison
+from app.cache import (
+    cache,
+    get_comparison,
+    get_residuals,
+    parse_settings,
+    settings_json,
+    split_settings,
+)
 from app.state import (
     SELECTION_ID,
     TRANSFORM_LABELS,
@@ -477,7 +484,7 @@ def pick(
             ),
             no_update,
         ]
-    panels = _panels(*comparison_key(request), label, f"{fc.__version__}+{figures.STYLE}")
+    panels = _panels(*comparison_key(request), label)
     ljung = [html.P([html.Strong(f"{label}: "), panels["verdict"]])]
     if not panels["replayed"]:
         ljung.append(
@@ -501,9 +508,25 @@ def pick(
     ]
 
 
+def _panels(dataset_id: str, series: str, settings: str, label: str) -> dict:
+    """Hindcast and residual figures (as JSON) for one accepted candidate.
+
+    Two memoized halves: the hindcast figures depend on every setting, the residual ones only
+    on the search layer's (a new horizon redraws only the hindcast).
+    """
+    style = f"{fc.__version__}+{figures.STYLE}"
+    search, _hind = split_settings(parse_settings(settings))
+    hindcast = _hindcast_panels(dataset_id, series, settings, label, style)
+    residuals = _residual_panels(dataset_id, series, settings_json(search), label, style)
+    return {
+        "figures": [*hindcast["figures"], *residuals["figures"]],
+        "verdict": residuals["verdict"],
+        "replayed": hindcast["replayed"],
+    }
+
+
 @cache.memoize()
-def _panels(dataset_id: str, series: str, settings: str, label: str, core_version: str) -> dict:
-    """Hindcast and residual figures (as JSON) for one accepted candidate, memoized."""
+def _hindcast_panels(dataset_id: str, series: str, settings: str, label: str, style: str) -> dict:
     comparison = get_comparison(dataset_id, series, settings)
     candidate = comparison.candidate(label)
     unit = _unit({"dataset_id": dataset_id, "series": series})
@@ -519,23 +542,18 @@ def _panels(dataset_id: str, series: str, settings: str, label: str, core_versio
         skill_fig = figures.skill_figure(comparison.hindcast)
     else:
         hc_fig = skill_fig = figures.blank_figure(260)
-    report = (
-        comparison.diagnostics
-        if (comparison.diagnostics is not None and comparison.diagnostics.model == label)
-        else fc.check_residuals(candidate)
-    )
+    return {"figures": [hc_fig.to_plotly_json(), skill_fig.to_plotly_json()], "replayed": replayed}
+
+
+@cache.memoize()
+def _residual_panels(dataset_id: str, series: str, search: str, label: str, style: str) -> dict:
+    report = get_residuals(dataset_id, series, search, label)
     figs = [
-        hc_fig,
-        skill_fig,
         figures.residuals_figure(report),
         figures.residual_acf_figure(report),
         figures.qq_figure(report),
     ]
-    return {
-        "figures": [f.to_plotly_json() for f in figs],
-        "verdict": report.verdict,
-        "replayed": replayed,
-    }
+    return {"figures": [f.to_plotly_json() for f in figs], "verdict": report.verdict}
 
 
 def _unit(request: Mapping[str, Any]) -> str | None:

@@ -174,24 +174,7 @@ def test_stationarity_is_memoized_per_dataset_series_and_transform(app, monkeypa
     assert calls == [("plaice_t", "none"), ("plaice_t", "log")]
 
 
-def test_comparisons_are_memoized_and_get_the_settings_as_keywords(app, monkeypatch):
-    calls = []
-
-    def fake_compare(y, **kwargs):
-        calls.append(kwargs)
-        return {"series": y.name, **kwargs}
-
-    monkeypatch.setattr(fc, "compare_models", fake_compare)
-    store = app.server.extensions["haulcast"]["store"]
-    key = settings_json({"horizon": 3, "transform": "log"})
-    with app.server.test_request_context():
-        assert get_comparison(store.default_id(), "hake_t", key) == {
-            "series": "hake_t",
-            "horizon": 3,
-            "transform": "log",
-        }
-        get_comparison(store.default_id(), "hake_t", key)
-    assert calls == [{"horizon": 3, "transform": "log"}]
+# The comparison's memoization (in layers) is tested in tests/app/test_cache_layers.py.
 
 
 @pytest.mark.parametrize(
