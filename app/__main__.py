@@ -223,6 +223,7 @@ def _serve_one(sock: socket.socket, config: dict[str, Any], threads: int, banner
         print(f"error: {err}", file=sys.stderr)
         return 2
     server = _waitress(app, sock, threads)
+    logger.info("Worker %d serving.", os.getpid())
     print(banner, flush=True)
     # Compile the screening likelihood now, in the background, not on the first request.
     _warm_up_in_background(app.server)
@@ -376,6 +377,7 @@ def _child(
         _die_with_parent(parent)
         app = _build(config)
         server = _waitress(app, sock, threads)
+        logger.info("Worker %d serving.", os.getpid())
         if warm:
             _warm_up_in_background(app.server)
         server.run()
