@@ -21,7 +21,7 @@ path, and neither is any other id (both are checked to be hexadecimal first). Wh
 visitor may see is decided by the browser session (its list of uploaded ids, kept in the
 ``hc-selection`` store) plus the sample datasets that everyone sees; the server keeps no
 per-visitor state. Analyses are described in :mod:`app.store_analyses`, the SQLite file in
-:mod:`app.store_db`.
+:mod:`app.store_db`, the input checks in :mod:`app.store_checks`.
 """
 
 from __future__ import annotations
@@ -38,13 +38,8 @@ from hashlib import sha256
 from pathlib import Path
 
 import forecasting_core as fc
-from app.store_analyses import (
-    AnalysesMixin,
-    Analysis,
-    SignOff,
-    check_analysis_id,
-    check_text,
-)
+from app.store_analyses import AnalysesMixin, Analysis, SignOff
+from app.store_checks import check_analysis_id, check_text
 from app.store_db import DB_NAME, SCHEMA_VERSION, Database, now_utc
 
 __all__ = [

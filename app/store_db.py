@@ -234,7 +234,7 @@ class Database:
         alive = {t.ident for t in threading.enumerate()}
         for key in list(self._conns):
             if key[0] != pid:
-                self._conns.pop(key)  # the parent's: never touch it from the child
+                _INHERITED.append(self._conns.pop(key))
             elif key[1] not in alive:
                 try:
                     self._conns.pop(key).close()
@@ -317,12 +317,21 @@ def _current_version(conn: sqlite3.Connection) -> int:
     return int(conn.execute("SELECT coalesce(max(version), 0) FROM schema_version").fetchone()[0])
 
 
+#: Connections a forked process inherited from its parent. They are kept referenced and never
+#: closed here: closing a parent's handle in the child could release the child's own POSIX
+#: locks on the file (SQLite docs, "How To Corrupt An SQLite Database File": carrying an open
+#: connection across a fork()).
+_INHERITED: list[sqlite3.Connection] = []
+
+
 def _close_all(conns: dict[tuple[int, int], sqlite3.Connection], lock: threading.Lock) -> None:
     pid = os.getpid()
     with lock:
         for key in list(conns):
             conn = conns.pop(key)
-            if key[0] == pid:
+            if key[0] != pid:
+                _INHERITED.append(conn)
+            else:
                 try:
                     conn.close()
                 except sqlite3.Error:  # pragma: no cover

@@ -5,7 +5,6 @@ from __future__ import annotations
 
 import json
 import sqlite3
-from pathlib import Path
 
 import pytest
 
@@ -59,12 +58,15 @@ def forecast_dict(nile) -> dict:
     }
 
 
-@pytest.fixture
-def store(tmp_path: Path) -> DatasetStore:
-    return DatasetStore(tmp_path)
+@pytest.fixture(scope="module")
+def store(tmp_path_factory) -> DatasetStore:
+    """One store for the module (each test makes its own analyses, so they do not meet)."""
+    shared = DatasetStore(tmp_path_factory.mktemp("store"))
+    yield shared
+    shared.close()
 
 
-@pytest.fixture
+@pytest.fixture(scope="module")
 def dataset_id(store: DatasetStore) -> str:
     return store.save(CSV, "cod.csv")
 
@@ -98,11 +100,11 @@ def _save(store: DatasetStore, dataset: str, **over) -> Analysis:
 # -- round trips ------------------------------------------------------------------------------
 
 
-def test_a_saved_forecast_reopens_with_exactly_the_same_numbers(tmp_path, draft, forecast_dict):
+def test_a_saved_forecast_reopens_with_exactly_the_same_numbers(store, draft, forecast_dict):
     # reference: statsmodels' own forecast numbers, compared with ==, so every float must come
     # back bit for bit (Python's json writes the shortest repr that round-trips; Python docs,
     # "Floating Point Arithmetic", repr)
-    reopened = DatasetStore(tmp_path).get_analysis(draft.id)
+    reopened = DatasetStore(store.data_dir).get_analysis(draft.id)
     assert reopened.forecast == forecast_dict
     assert reopened.settings == SETTINGS
     assert reopened == draft
@@ -176,12 +178,12 @@ def test_a_published_analysis_cannot_be_published_again(store, draft):
         "DELETE FROM signoffs WHERE analysis_id = ?",
     ],
 )
-def test_sqlite_itself_refuses_to_change_a_published_analysis(tmp_path, store, draft, sql):
+def test_sqlite_itself_refuses_to_change_a_published_analysis(store, draft, sql):
     store.publish(draft.id, author="Ben")
     store.add_signoff(draft.id, name="Dee", role="manager", note="agreed")
     before = store.get_analysis(draft.id)
     # a second, plain connection: the triggers hold even for code that bypasses the store
-    conn = sqlite3.connect(tmp_path / DB_NAME)
+    conn = sqlite3.connect(store.data_dir / DB_NAME)
     try:
         with pytest.raises(sqlite3.IntegrityError, match="immutable"):
             conn.execute(sql, (draft.id,))
@@ -190,8 +192,8 @@ def test_sqlite_itself_refuses_to_change_a_published_analysis(tmp_path, store, d
     assert store.get_analysis(draft.id) == before
 
 
-def test_even_a_draft_keeps_its_content(tmp_path, draft):
-    conn = sqlite3.connect(tmp_path / DB_NAME)
+def test_even_a_draft_keeps_its_content(store, draft):
+    conn = sqlite3.connect(store.data_dir / DB_NAME)
     try:
         with pytest.raises(sqlite3.IntegrityError, match="immutable"):
             conn.execute("UPDATE analyses SET model = 'other' WHERE id = ?", (draft.id,))
@@ -232,7 +234,7 @@ def test_revise_refuses_fields_it_cannot_change(store, draft):
 # -- sign-offs --------------------------------------------------------------------------------
 
 
-def test_sign_offs_are_kept_in_order_on_published_analyses(tmp_path, store, draft):
+def test_sign_offs_are_kept_in_order_on_published_analyses(store, draft):
     store.publish(draft.id, author="Ben")
     store.add_signoff(draft.id, name="Dee Ola", role="stock lead", note="Bands checked.")
     signed = store.add_signoff(draft.id, name="Eli", role="manager", note="")
@@ -241,7 +243,7 @@ def test_sign_offs_are_kept_in_order_on_published_analyses(tmp_path, store, draf
         ("Eli", "manager", ""),
     ]
     assert all(isinstance(s, SignOff) and s.signed_at.endswith("+00:00") for s in signed.signoffs)
-    assert DatasetStore(tmp_path).get_analysis(draft.id).signoffs == signed.signoffs
+    assert DatasetStore(store.data_dir).get_analysis(draft.id).signoffs == signed.signoffs
 
 
 def test_a_draft_cannot_be_signed_off(store, draft):
@@ -258,8 +260,11 @@ def test_a_note_keeps_its_line_breaks(store, draft):
 # -- listing and search -----------------------------------------------------------------------
 
 
-@pytest.fixture
-def several(store, dataset_id):
+@pytest.fixture(scope="module")
+def listing(tmp_path_factory):
+    """A store of its own holding only the analyses the listing tests expect."""
+    store = DatasetStore(tmp_path_factory.mktemp("listing"))
+    dataset_id = store.save(CSV, "cod.csv")
     made = [
         _save(store, dataset_id, title="Cod 2020 first look", season="2020", author="Ana"),
         _save(store, dataset_id, series="ling_t", title="Ling", season="2021", author="Ben"),
@@ -268,7 +273,9 @@ def several(store, dataset_id):
     ]
     store.publish(made[1].id, author="Ben")
     store.publish(made[2].id, author="Ana")
-    return made
+    store.add_signoff(made[1].id, name="Dee", role="lead", note="ok")
+    yield store, made
+    store.close()
 
 
 @pytest.mark.parametrize(
@@ -291,13 +298,14 @@ def several(store, dataset_id):
         ({"limit": 2}, [3, 2]),
     ],
 )
-def test_list_analyses_filters_and_orders_newest_first(store, several, kwargs, expected):
+def test_list_analyses_filters_and_orders_newest_first(listing, kwargs, expected):
+    store, several = listing
     found = store.list_analyses(**kwargs)
     assert [a.id for a in found] == [several[i].id for i in expected]
 
 
-def test_listed_analyses_carry_their_sign_offs(store, several):
-    store.add_signoff(several[1].id, name="Dee", role="lead", note="ok")
+def test_listed_analyses_carry_their_sign_offs(listing):
+    store, several = listing
     listed = {a.id: a for a in store.list_analyses()}
     assert [s.name for s in listed[several[1].id].signoffs] == ["Dee"]
     assert listed[several[0].id].signoffs == ()
@@ -334,9 +342,10 @@ def test_listed_analyses_carry_their_sign_offs(store, several):
     ],
 )
 def test_bad_fields_are_refused_with_a_plain_message(store, dataset_id, over, message):
+    before = len(store.list_analyses())
     with pytest.raises(fc.InputError, match=message):
         _save(store, dataset_id, **over)
-    assert store.list_analyses() == []
+    assert len(store.list_analyses()) == before
 
 
 def test_text_is_stripped_and_inner_whitespace_collapsed(store, dataset_id):
