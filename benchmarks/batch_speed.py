@@ -1,0 +1,259 @@
+"""Batch speed: many annual series, local worker processes against a local Dask cluster.
+
+Data: ``--series`` seeded simulated series (default 1,000) of ``--length`` annual values
+(default 50) in one wide CSV file, the same kind of processes as ``compare_speed.py`` (AR, MA,
+ARMA and random walks on the log scale, invented for timing only).
+
+Each run is the full default work of ``batch FILE --horizon 5``: ``compare_models`` (exhaustive
+search, benchmarks, hindcast, residual checks) and a 5-year forecast for every series, records
+streamed to a JSON file as they come, exactly as the command line does.
+
+* local: ``run_batch(..., workers=2)`` (two worker processes).
+* Dask: a ``LocalCluster`` of two worker processes with one thread each, started in this
+  process, then ``run_batch(..., scheduler=cluster)``. The cluster's start-up is reported
+  separately and not in the run's wall time.
+
+Peak memory is the largest sum of the resident set sizes (RSS) of this process and all its
+descendants (worker processes, the Dask nanny and worker processes), sampled every 50 ms. RSS
+counts pages shared between processes once per process, so the figure is an upper bound.
+
+Run: ``.venv/bin/python benchmarks/batch_speed.py [--series 1000] [--workers 2] [--no-dask]``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import hashlib
+import json
+import os
+import platform
+import tempfile
+import threading
+import time
+import warnings
+from pathlib import Path
+
+import numpy as np
+from scipy.signal import lfilter
+
+import forecasting_core as fc
+from forecasting_core._batch import compute_one, iter_batch
+from forecasting_core._cli_models import JsonListWriter
+
+PROCESSES = [
+    ((0.6,), (), 0),
+    ((), (0.5,), 0),
+    ((0.5,), (0.3,), 0),
+    ((1.0, -0.5), (), 0),
+    ((0.4,), (), 1),
+    ((), (0.4,), 1),
+    ((), (), 1),
+]
+
+
+def write_file(path: Path, series: int, length: int) -> None:
+    """One wide CSV: a ``year`` column and one column per simulated series."""
+    cols = []
+    for k in range(series):
+        rng = np.random.default_rng([11, k])
+        ar, ma, d = PROCESSES[k % len(PROCESSES)]
+        e = rng.normal(scale=0.1, size=length + 100)
+        x = lfilter(np.r_[1.0, ma], np.r_[1.0, -np.asarray(ar)], e)[100:]
+        if d:
+            x = np.cumsum(x)
+        cols.append(np.exp(np.log(500.0 + 10 * (k % 50)) + x))
+    years = range(2026 - length, 2026)
+    with open(path, "w", encoding="utf-8") as fh:
+        fh.write("year," + ",".join(f"stock_{k:04d}_t" for k in range(series)) + "\n")
+        for i, year in enumerate(years):
+            fh.write(f"{year}," + ",".join(f"{c[i]:.2f}" for c in cols) + "\n")
+
+
+# ---------------------------------------------------------------------------------------------
+# Memory of the process tree
+# ---------------------------------------------------------------------------------------------
+
+
+def _tree_rss_proc(root: int) -> int:
+    """RSS in bytes of ``root`` and its descendants, from /proc (no psutil)."""
+    parent: dict[int, int] = {}
+    rss: dict[int, int] = {}
+    page = os.sysconf("SC_PAGE_SIZE")
+    for entry in os.listdir("/proc"):
+        if not entry.isdigit():
+            continue
+        try:
+            with open(f"/proc/{entry}/stat", encoding="ascii", errors="replace") as fh:
+                fields = fh.read().rsplit(")", 1)[1].split()
+            with open(f"/proc/{entry}/statm", encoding="ascii") as fh:
+                rss[int(entry)] = int(fh.read().split()[1]) * page
+            parent[int(entry)] = int(fields[1])
+        except (OSError, IndexError, ValueError):
+            continue
+    total, todo = 0, [root]
+    while todo:
+        pid = todo.pop()
+        total += rss.get(pid, 0)
+        todo.extend(c for c, p in parent.items() if p == pid)
+    return total
+
+
+def _tree_rss_psutil(root: int) -> int:
+    import psutil
+
+    me = psutil.Process(root)
+    total = 0
+    for proc in [me, *me.children(recursive=True)]:
+        try:
+            total += proc.memory_info().rss
+        except psutil.Error:
+            pass
+    return total
+
+
+class PeakMemory:
+    """Samples the RSS of this process tree in a thread; ``peak`` in bytes."""
+
+    def __init__(self, every: float = 0.05) -> None:
+        try:
+            import psutil  # noqa: F401
+
+            self._measure, self.method = _tree_rss_psutil, "psutil"
+        except ImportError:
+            self._measure, self.method = _tree_rss_proc, "/proc"
+        self._every, self.peak = every, 0
+        self._stop = threading.Event()
+        self._thread = threading.Thread(target=self._run, daemon=True)
+
+    def _run(self) -> None:
+        while not self._stop.is_set():
+            self.peak = max(self.peak, self._measure(os.getpid()))
+            self._stop.wait(self._every)
+
+    def __enter__(self) -> PeakMemory:
+        self.peak = self._measure(os.getpid())
+        self._thread.start()
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self._stop.set()
+        self._thread.join()
+        self.peak = max(self.peak, self._measure(os.getpid()))
+
+
+# ---------------------------------------------------------------------------------------------
+# Runs
+# ---------------------------------------------------------------------------------------------
+
+
+def run(path: Path, out: Path, label: str, **engine) -> dict:
+    """One batch run, records streamed to ``out``; wall time, peak memory, failures, hash."""
+    failed = 0
+    done = 0
+
+    def progress(d: int, total: int, _name: str) -> None:
+        nonlocal done
+        done = d
+        if d % max(total // 10, 1) == 0 or d == total:
+            print(f"  {label}: {d}/{total} series, {time.perf_counter() - start:.1f} s", flush=True)
+
+    with PeakMemory() as mem:
+        start = time.perf_counter()
+        with open(out, "w", encoding="utf-8") as fh:
+            writer = JsonListWriter(fh)
+            for record in iter_batch(path, 5, progress=progress, **engine):
+                writer.add(record)
+                failed += "error" in record
+            writer.close()
+        wall = time.perf_counter() - start
+    return {
+        "wall": wall,
+        "peak": mem.peak,
+        "method": mem.method,
+        "series": done,
+        "failed": failed,
+        "sha256": hashlib.sha256(out.read_bytes()).hexdigest(),
+    }
+
+
+def machine() -> str:
+    cpu = platform.processor() or "unknown CPU"
+    try:
+        with open("/proc/cpuinfo", encoding="utf-8") as fh:
+            cpu = next(line.split(":", 1)[1].strip() for line in fh if line.startswith("model name"))
+    except (OSError, StopIteration):
+        pass
+    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
+    load = ", ".join(f"{x:.1f}" for x in os.getloadavg())
+    return f"{cpu}; {cores} cores available; load average {load}; Python {platform.python_version()}"
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--series", type=int, default=1000, help="number of series (default 1000)")
+    parser.add_argument("--length", type=int, default=50, help="annual values per series (default 50)")
+    parser.add_argument("--workers", type=int, default=2, help="local workers and Dask workers (default 2)")
+    parser.add_argument("--no-dask", action="store_true", help="local run only")
+    args = parser.parse_args()
+
+    print(f"Machine: {machine()}")
+    print(f"haulcast {fc.__version__}; {args.series} series of {args.length} annual values, horizon 5")
+    fc.warm_up()  # compiled screening code loaded before workers start (forked workers share it)
+    results = {}
+    with tempfile.TemporaryDirectory(prefix="haulcast-batch-") as tmp:
+        path = Path(tmp) / "stocks.csv"
+        write_file(path, args.series, args.length)
+        # Not timed: one series inline, so that every compiled function is loaded (from numba's
+        # disk cache, or compiled once) before the workers start.
+        first = next(iter(fc.read_table(path).series.items()))
+        t0 = time.perf_counter()
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            compute_one(first[1], 5)
+        print(f"Warm-up on one series (not timed): {time.perf_counter() - t0:.1f} s")
+        results["local"] = run(path, Path(tmp) / "local.json", "local", workers=args.workers)
+        startup = None
+        if not args.no_dask:
+            try:
+                from distributed import LocalCluster
+            except ImportError:
+                print("Dask run skipped: dask/distributed not installed (pip install '.[cluster]').")
+            else:
+                t0 = time.perf_counter()
+                with LocalCluster(
+                    n_workers=args.workers, threads_per_worker=1, processes=True,
+                    dashboard_address=None,
+                ) as cluster:  # fmt: skip
+                    startup = time.perf_counter() - t0
+                    results["Dask"] = run(path, Path(tmp) / "dask.json", "Dask", scheduler=cluster)
+
+    print()
+    names = list(results)
+    width = 26
+    print(f"{'':{width}}" + "".join(f"{n:>14}" for n in names) + ("      Dask/local" if len(names) == 2 else ""))
+
+    def row(label: str, values: list[float], fmt: str, ratio: bool = True) -> None:
+        cells = "".join(f"{v:>14{fmt}}" for v in values)
+        tail = f"{values[1] / values[0]:>16.2f}" if ratio and len(values) == 2 and values[0] else ""
+        print(f"{label:{width}}{cells}{tail}")
+
+    row("wall time (s)", [results[n]["wall"] for n in names], ".1f")
+    row("ms per series", [1000 * results[n]["wall"] / max(results[n]["series"], 1) for n in names], ".0f")
+    row("peak memory, all (MB)", [results[n]["peak"] / 2**20 for n in names], ".0f")
+    row("failed series", [results[n]["failed"] for n in names], "d", ratio=False)
+    if startup is not None:
+        print(f"Dask cluster start-up (not in the wall time): {startup:.1f} s")
+    if len(names) == 2:
+        same = results["local"]["sha256"] == results["Dask"]["sha256"]
+        print(f"Records identical (JSON SHA-256): {'yes' if same else 'NO'}")
+    print(f"Memory sampled with {results['local']['method']} (sum of RSS over the process tree).")
+    print(
+        f"Targets (1000 series, 2 workers): wall <= 60 s, peak memory < 1536 MB. "
+        f"Projected at this rate for 1000 series: "
+        f"{results['local']['wall'] / max(results['local']['series'], 1) * 1000:.0f} s local."
+    )
+    print(json.dumps({n: {k: v for k, v in r.items() if k != "method"} for n, r in results.items()}))
+
+
+if __name__ == "__main__":
+    main()
