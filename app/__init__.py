@@ -144,6 +144,9 @@ def create_app(config: Mapping[str, Any] | None = None) -> dash.Dash:
     store = DatasetStore(data_dir, max_bytes=max_bytes)
     if cfg.get("LOAD_SAMPLES", True):
         store.load_samples(cfg.get("SAMPLE_DIR") or SAMPLE_DIR)
+        from app.demo_record import seed_demo_record  # the demo's forecast record
+
+        seed_demo_record(store, cfg.get("SAMPLE_DIR") or SAMPLE_DIR)
     server.extensions["haulcast"] = {"store": store, "config": cfg}
     init_cache(server, cfg, data_dir)
     register_api(server)  # the read-only JSON API under /api (app/api.py)
