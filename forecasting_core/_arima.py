@@ -373,6 +373,11 @@ def fit_order(
             _rejected(y, order, seasonal_order, constant, spec, f"no convergence after {iterations} iterations", k, nobs),
             aicc=aicc, aic=aic, bic=bic, loglik=llf, params=values,
         )
+    return _accepted(res, y, order, seasonal_order, constant, spec, values, llf, k, nobs, aicc, aic, bic)
+
+
+def _accepted(res, y, order, seasonal_order, constant, spec, values, llf, k, nobs, aicc, aic, bic) -> Candidate:
+    """An accepted Candidate from statsmodels results, or rejected when a root is too close."""
     problem = _root_problem(res)
     if problem:
         return _rejected(y, order, seasonal_order, constant, spec, problem, k, nobs)
@@ -398,3 +403,41 @@ def fit_order(
         transform=spec,
         series=y,
     )
+
+
+def candidate_at(
+    y: pd.Series,
+    order: tuple[int, int, int],
+    seasonal_order: tuple[int, int, int, int] | None,
+    constant: bool,
+    spec: TransformSpec,
+    params: Mapping[str, float],
+) -> Candidate:
+    """The Candidate of given parameters, from one statsmodels ``filter(params)`` pass (no fit).
+
+    The likelihood, AICc and the root check are statsmodels' own at ``params`` (e.g. the
+    compiled fast path's converged estimate); never raises for a fit problem.
+    """
+    order = tuple(int(v) for v in order)
+    seasonal_order = tuple(int(v) for v in seasonal_order) if seasonal_order else None
+    period = seasonal_order[3] if seasonal_order else 1
+    burn = order[1] + (seasonal_order[1] * period if seasonal_order else 0)
+    try:
+        z = transformed_values(y, spec)
+        nobs = int(np.isfinite(z).sum()) - burn
+        with warnings.catch_warnings(), one_blas_thread():
+            warnings.simplefilter("ignore")
+            model = build_model(z, order, seasonal_order, constant)
+            names = _sm_names_to_ours(list(model.param_names))
+            res = model.filter(np.array([params[n] for n in names], dtype=float))
+    except Exception as exc:  # noqa: BLE001 - any statsmodels/numpy failure becomes a reason
+        return _rejected(y, order, seasonal_order, constant, spec, f"fit failed: {type(exc).__name__}: {exc}")
+    k = len(names)
+    llf = float(res.llf)
+    if not math.isfinite(llf) or nobs - k - 1 <= 0:
+        return _rejected(y, order, seasonal_order, constant, spec, "fit failed: the likelihood is not finite", k, nobs)
+    values = {n: float(params[n]) for n in names}
+    aic = -2.0 * llf + 2.0 * k
+    aicc = aic + 2.0 * k * (k + 1) / (nobs - k - 1)
+    bic = -2.0 * llf + k * math.log(nobs)
+    return _accepted(res, y, order, seasonal_order, constant, spec, values, llf, k, nobs, aicc, aic, bic)

@@ -1,15 +1,21 @@
-"""A lean exact-likelihood ARMA fit for screening the order grid.
+"""A lean exact-likelihood ARMA fit for the order grid, the final fits and the hindcast.
 
-statsmodels' state-space ARIMA is the reference implementation: every model Haulcast reports is
-refitted there. This module only makes the search cheap. It evaluates the exact Gaussian
-likelihood of an ARMA(p, q) with an optional mean on the (already differenced) series with a
-small Kalman filter in Harvey's state-space form, concentrating the innovation variance out, and
-maximises it over the stationary and invertible region through the Monahan (1984) / Jones (1980)
-partial-autocorrelation reparametrisation. Missing values are skipped in the filter (their
+statsmodels' state-space ARIMA is the reference implementation: every model Haulcast reports
+in detail is handed to statsmodels (``filter(params)``: its own likelihood, AICc and roots at
+these parameters). This module makes the work before that cheap. It evaluates the exact
+Gaussian likelihood of an ARMA(p, q) with an optional mean on the (already differenced) series
+with a small Kalman filter in Harvey's state-space form, concentrating the innovation variance
+out, and maximises it over the stationary and invertible region through the Monahan (1984) /
+Jones (1980) partial-autocorrelation reparametrisation, with a compiled BFGS optimiser (all
+iterations inside one compiled call). Missing values are skipped in the filter (their
 prediction step still runs), so gaps enter the likelihood instead of being dropped.
 
-The filter is compiled with numba when it is installed (cached on disk, so the compile cost is
-paid once per machine) and runs as plain numpy otherwise; both give the same numbers.
+The grid is screened by conditional sum of squares (Box & Jenkins), the exact likelihood is
+evaluated at each screened estimate (an upper bound of the order's best AICc), and the orders
+near the best are then fitted to convergence on the exact likelihood.
+
+The kernels live in ``_fastkernels`` (compiled with numba when it is installed, cached on
+disk; plain numpy otherwise, with the same numbers).
 """
 
 from __future__ import annotations
@@ -18,195 +24,33 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize
 
-try:  # numba is optional: the pure-numpy path gives the same results, only slower.
-    import numba
+from forecasting_core._fastkernels import (
+    HAVE_NUMBA,
+    _bfgs,
+    _constrain,
+    _expand,
+    _harvey_loglik,
+    _harvey_loglik_py,
+)
 
-    _HAVE_NUMBA = True
-except ImportError:  # pragma: no cover - exercised by the fallback test through monkeypatching
-    numba = None
-    _HAVE_NUMBA = False
+__all__ = ["FastFit", "constrain", "difference", "fit_arma", "screen_specs", "unconstrain", "warm_up"]
 
+_HAVE_NUMBA = HAVE_NUMBA
 _LOG_2PI = math.log(2.0 * math.pi)
-
-
-def _harvey_loglik_py(w: np.ndarray, phi: np.ndarray, theta: np.ndarray) -> tuple[float, float, int]:
-    """Kalman filter of a zero-mean ARMA with unit innovation variance.
-
-    Returns (sum of v_t^2 / F_t, sum of log F_t, number of observations used); the caller
-    concentrates sigma2 out. ``phi``/``theta`` follow x_t = sum phi_i x_{t-i} + e_t + sum theta_j e_{t-j}.
-    The transition matrix is the companion form (first column phi, ones above the diagonal), so
-    every product with it is written out in O(r^2) loops without temporary arrays or BLAS calls:
-    (T M)[i, j] = phi_i M[0, j] + M[i+1, j].
-    """
-    p = phi.shape[0]
-    q = theta.shape[0]
-    r = max(p, q + 1)
-    ph = np.zeros(r)
-    for i in range(p):
-        ph[i] = phi[i]
-    R = np.zeros(r)
-    R[0] = 1.0
-    for j in range(q):
-        R[j + 1] = theta[j]
-    # Unconditional state covariance P = T P T' + R R' by fixed-point iteration with doubling
-    # of the horizon covered: P_{k+1} = P_k + A_k P_k A_k', A_{k+1} = A_k A_k, A_0 = T.
-    P = np.empty((r, r))
-    for i in range(r):
-        for j in range(r):
-            P[i, j] = R[i] * R[j]
-    A = np.zeros((r, r))
-    for i in range(r):
-        A[i, 0] = ph[i]
-        if i + 1 < r:
-            A[i, i + 1] = 1.0
-    AP = np.empty((r, r))
-    AA = np.empty((r, r))
-    for _ in range(64):
-        for i in range(r):
-            for j in range(r):
-                acc = 0.0
-                for k in range(r):
-                    acc += A[i, k] * P[k, j]
-                AP[i, j] = acc
-        biggest = 0.0
-        for i in range(r):
-            for j in range(r):
-                acc = 0.0
-                for k in range(r):
-                    acc += AP[i, k] * A[j, k]
-                P[i, j] += acc
-        for i in range(r):
-            for j in range(r):
-                acc = 0.0
-                for k in range(r):
-                    acc += A[i, k] * A[k, j]
-                AA[i, j] = acc
-                if abs(acc) > biggest:
-                    biggest = abs(acc)
-        for i in range(r):
-            for j in range(r):
-                A[i, j] = AA[i, j]
-        if biggest < 1e-13:
-            break
-    a = np.zeros(r)
-    K = np.empty(r)
-    row0 = np.empty(r)
-    TP = np.empty((r, r))
-    ssq = 0.0
-    sumlog = 0.0
-    nobs = 0
-    for t in range(w.shape[0]):
-        y = w[t]
-        if not math.isnan(y):
-            F = P[0, 0]
-            if not F > 0.0:
-                return math.inf, math.inf, 0
-            v = y - a[0]
-            for i in range(r):
-                K[i] = P[i, 0] / F
-            for i in range(r):
-                a[i] += K[i] * v
-            for j in range(r):
-                row0[j] = P[0, j]
-            for i in range(r):
-                for j in range(r):
-                    P[i, j] -= K[i] * row0[j]
-            ssq += v * v / F
-            sumlog += math.log(F)
-            nobs += 1
-        # Predict: a <- T a, P <- T P T' + R R'.
-        a0 = a[0]
-        for i in range(r - 1):
-            a[i] = ph[i] * a0 + a[i + 1]
-        a[r - 1] = ph[r - 1] * a0
-        for i in range(r):
-            for j in range(r):
-                TP[i, j] = ph[i] * P[0, j] + (P[i + 1, j] if i + 1 < r else 0.0)
-        for i in range(r):
-            for j in range(r):
-                P[i, j] = TP[i, 0] * ph[j] + (TP[i, j + 1] if j + 1 < r else 0.0) + R[i] * R[j]
-    return ssq, sumlog, nobs
-
-
-def _constrain_py(x: np.ndarray) -> np.ndarray:
-    n = x.shape[0]
-    phi = np.zeros(n)
-    prev = np.zeros(n)
-    for k in range(n):
-        rk = x[k] / math.sqrt(1.0 + x[k] * x[k])
-        for j in range(k):
-            prev[j] = phi[j]
-        phi[k] = rk
-        for j in range(k):
-            phi[j] = prev[j] - rk * prev[k - 1 - j]
-    return phi
-
-
-def _expand_py(short: np.ndarray, seasonal: np.ndarray, m: int, sign: float) -> np.ndarray:
-    """Lag coefficients of (1 + sign*sum a_i B^i)(1 + sign*sum A_j B^{mj}), times sign."""
-    p = short.shape[0]
-    big = seasonal.shape[0]
-    out = np.zeros(p + m * big)
-    for i in range(p):
-        out[i] += short[i]
-    for j in range(big):
-        out[m * (j + 1) - 1] += seasonal[j]
-        for i in range(p):
-            out[m * (j + 1) + i] += sign * short[i] * seasonal[j]
-    return out
-
-
-def _negloglik_py(
-    x: np.ndarray, ws: np.ndarray, p: int, q: int, P: int, Q: int, m: int, mean: bool
-) -> float:
-    """Concentrated negative log-likelihood at unconstrained parameters x (standardised scale)."""
-    ar = _constrain(x[:p])
-    ma = -_constrain(x[p : p + q])
-    sar = _constrain(x[p + q : p + q + P])
-    sma = -_constrain(x[p + q + P : p + q + P + Q])
-    if P > 0 or Q > 0:
-        phi = _expand(ar, sar, m, -1.0)
-        theta = _expand(ma, sma, m, 1.0)
-    else:
-        phi = ar
-        theta = ma
-    mu = x[p + q + P + Q] if mean else 0.0
-    ssq, sumlog, n = _harvey_loglik(ws - mu, phi, theta)
-    if n == 0 or not (ssq > 0.0) or not math.isfinite(ssq):
-        return 1e10
-    return 0.5 * (n * (_LOG_2PI + math.log(ssq / n) + 1.0) + sumlog)
-
-
-def _value_and_grad_py(
-    x: np.ndarray, ws: np.ndarray, p: int, q: int, P: int, Q: int, m: int, mean: bool
-) -> tuple[float, np.ndarray]:
-    """Negative log-likelihood and its forward-difference gradient in one compiled call."""
-    f0 = _negloglik(x, ws, p, q, P, Q, m, mean)
-    k = x.shape[0]
-    grad = np.zeros(k)
-    xh = x.copy()
-    for i in range(k):
-        h = 1e-7 * max(1.0, abs(x[i]))
-        xh[i] = x[i] + h
-        grad[i] = (_negloglik(xh, ws, p, q, P, Q, m, mean) - f0) / h
-        xh[i] = x[i]
-    return f0, grad
-
-
-if _HAVE_NUMBA:
-    _harvey_loglik = numba.njit(cache=True)(_harvey_loglik_py)
-    _constrain = numba.njit(cache=True)(_constrain_py)
-    _expand = numba.njit(cache=True)(_expand_py)
-    _negloglik = numba.njit(cache=True)(_negloglik_py)
-    _value_and_grad = numba.njit(cache=True)(_value_and_grad_py)
-else:  # pragma: no cover
-    _harvey_loglik = _harvey_loglik_py
-    _constrain = _constrain_py
-    _expand = _expand_py
-    _negloglik = _negloglik_py
-    _value_and_grad = _value_and_grad_py
+#: Exact-likelihood refinement of every screened order within this many AICc of the best screen.
+SCREEN_MARGIN = 4.0
+#: The best few after refinement are also fitted from a cold start (zeros); the higher optimum wins.
+COLD_CHECK = 2
+#: Convergence: largest gradient component of the negative log-likelihood (standardised series).
+GTOL = 1e-4
+#: Looser tolerance of a screening fit on the exact likelihood (series with gaps).
+SCREEN_GTOL = 1e-2
+#: Least-squares screen: loose, since it only ranks orders and starts the exact fit.
+CSS_GTOL = 1e-2
+CSS_MAXITER = 50
+_KINDS = {"exact": 0, "css": 1}
+_ = _harvey_loglik_py  # re-exported for the test of the plain filter
 
 
 def constrain(x: np.ndarray) -> np.ndarray:
@@ -230,6 +74,33 @@ def unconstrain(phi: np.ndarray) -> np.ndarray:
             prev = (cur[:k] + rk * cur[:k][::-1]) / (1.0 - rk * rk)
             cur = prev
     return r / np.sqrt(1.0 - r * r)
+
+
+def roots_outside(coefs, limit: float = 1.0) -> bool:
+    """Every root of 1 - sum c_i z^i has modulus above ``limit`` (Levinson step-down, no roots).
+
+    The roots of c(limit z) are those of c(z) divided by ``limit``, so the test is the
+    stationarity of the coefficients c_i limit^i: every step-down partial autocorrelation
+    strictly inside (-1, 1).
+    """
+    cur = np.asarray(coefs, dtype=float) * float(limit) ** np.arange(1, len(coefs) + 1)
+    for k in range(cur.size - 1, -1, -1):
+        rk = float(cur[k])
+        if not abs(rk) < 1.0:
+            return False
+        if k:
+            cur = (cur[:k] + rk * cur[:k][::-1]) / (1.0 - rk * rk)
+    return True
+
+
+def admissible(ar, ma, sar, sma, m: int, limit: float) -> bool:
+    """No AR or MA root (seasonal factors included) within ``limit`` of the unit circle."""
+    return (
+        roots_outside(ar, limit)
+        and roots_outside(-np.asarray(ma, dtype=float), limit)
+        and roots_outside(sar, limit**m)
+        and roots_outside(-np.asarray(sma, dtype=float), limit**m)
+    )
 
 
 @dataclass(frozen=True)
@@ -257,6 +128,9 @@ class FastFit:
     x : numpy.ndarray
         The unconstrained optimum ``[ar, ma, seasonal_ar, seasonal_ma, mean]`` (for warm starts).
     converged : bool
+    hess_inv : numpy.ndarray or None
+        The optimiser's final inverse Hessian in the standardised parametrisation (a warm
+        start for a neighbouring fit, e.g. the next hindcast origin).
     """
 
     p: int
@@ -275,6 +149,7 @@ class FastFit:
     sigma2: float
     x: np.ndarray
     converged: bool
+    hess_inv: np.ndarray | None = None
 
     @property
     def n_params(self) -> int:
@@ -310,13 +185,17 @@ def fit_arma(
     m: int = 1,
     start: np.ndarray | None = None,
     maxiter: int = 200,
+    gtol: float = GTOL,
+    kind: str = "exact",
+    hess_inv: np.ndarray | None = None,
 ) -> FastFit:
     """Maximum-likelihood (seasonal) ARMA with an optional mean on a stationary series.
 
     Parameters
     ----------
     w : numpy.ndarray
-        The differenced, transformed series (NaN for missing values).
+        The differenced, transformed series (NaN for missing values; none allowed with
+        ``kind="css"``).
     p, q : int
         AR and MA orders.
     mean : bool
@@ -327,9 +206,17 @@ def fit_arma(
         Season length in periods (12 monthly, 4 quarterly; 1 when non-seasonal).
     start : numpy.ndarray, optional
         Unconstrained starting point ``[ar, ma, seasonal_ar, seasonal_ma, mean]`` (e.g. a
-        neighbouring order's optimum padded with zeros).
+        neighbouring order's optimum padded with zeros), the mean on the data's scale.
     maxiter : int
-        Iteration cap of the quasi-Newton optimiser.
+        Iteration cap of the BFGS optimiser.
+    gtol : float
+        Convergence when every gradient component of the negative log-likelihood (of the
+        standardised series) is below this.
+    kind : {"exact", "css"}
+        Maximise the exact likelihood, or minimise the conditional sum of squares (a cheap
+        screen). Either way ``loglik`` is the exact likelihood at the estimate.
+    hess_inv : numpy.ndarray, optional
+        Starting inverse Hessian (a neighbouring fit's ``hess_inv``); identity otherwise.
     """
     w = np.ascontiguousarray(w, dtype=float)
     finite = w[np.isfinite(w)]
@@ -338,42 +225,37 @@ def fit_arma(
     # Work on a standardised series so one set of tolerances fits every unit (t, kg per tow, deg C).
     ws = (w - centre) / scale
     k = p + q + P + Q + int(mean)
-    cuts = np.cumsum([p, q, P, Q])
-
-    def unpack(x: np.ndarray) -> tuple[np.ndarray, ...]:
-        ar = constrain(x[: cuts[0]])
-        ma = -constrain(x[cuts[0] : cuts[1]])
-        sar = constrain(x[cuts[1] : cuts[2]])
-        sma = -constrain(x[cuts[2] : cuts[3]])
-        mu = float(x[cuts[3]]) if mean else 0.0
-        return ar, ma, sar, sma, mu
-
-    def full(ar, ma, sar, sma) -> tuple[np.ndarray, np.ndarray]:
-        if P or Q:
-            return _expand(ar, sar, m, -1.0), _expand(ma, sma, m, 1.0)
-        return ar, ma
-
-    def objective(x: np.ndarray) -> tuple[float, np.ndarray]:
-        return _value_and_grad(x, ws, p, q, P, Q, m, mean)
-
     x0 = np.zeros(k) if start is None else np.asarray(start, dtype=float).copy()
     if mean and start is not None:
         x0[-1] = (x0[-1] - centre) / scale
+    if not np.all(np.isfinite(x0)):
+        x0 = np.zeros(k)
     converged = True
+    H = None
     if k:
-        res = optimize.minimize(
-            objective, x0, jac=True, method="L-BFGS-B", options={"maxiter": maxiter, "gtol": 1e-6}
-        )
-        x = res.x
-        converged = bool(res.success) or res.status == 2  # 2: precision loss near the optimum
+        H0 = hess_inv if hess_inv is not None and hess_inv.shape == (k, k) else np.zeros((0, 0))
+        x, _, status, _, H = _bfgs(x0, H0, ws, p, q, P, Q, m, bool(mean), _KINDS[kind], int(maxiter), float(gtol), False)
+        converged = status == 0
     else:
         x = x0
-    ar, ma, sar, sma, mu = unpack(x)
-    phi, theta = full(ar, ma, sar, sma)
+    return _finish(x, ws, centre, scale, p, q, P, Q, m, mean, converged, H)
+
+
+def _finish(x, ws, centre, scale, p, q, P, Q, m, mean, converged, H=None) -> FastFit:
+    cuts = np.cumsum([p, q, P, Q])
+    ar = constrain(x[: cuts[0]])
+    ma = -constrain(x[cuts[0] : cuts[1]])
+    sar = constrain(x[cuts[1] : cuts[2]])
+    sma = -constrain(x[cuts[2] : cuts[3]])
+    mu = float(x[cuts[3]]) if mean else 0.0
+    if P or Q:
+        phi, theta = _expand(ar, sar, m, -1.0), _expand(ma, sma, m, 1.0)
+    else:
+        phi, theta = ar, ma
     ll, sigma2s, n = _profile_loglik(ws - mu, phi, theta)
     # Back to the data's own scale: the likelihood shifts by -n log(scale).
     loglik = ll - n * math.log(scale)
-    x_out = x.copy()
+    x_out = np.array(x, dtype=float)
     if mean:
         x_out[-1] = centre + scale * mu
     return FastFit(
@@ -392,7 +274,8 @@ def fit_arma(
         seasonal_ma=sma,
         sigma2=float(sigma2s * scale * scale),
         x=x_out,
-        converged=converged and math.isfinite(loglik),
+        converged=bool(converged) and math.isfinite(loglik),
+        hess_inv=H,
     )
 
 
@@ -420,77 +303,162 @@ def _pad(prev: FastFit, p: int, q: int, P: int, Q: int) -> np.ndarray:
     return np.array(blocks)
 
 
-def screen_specs(z: np.ndarray, specs: list[Spec]) -> dict[Spec, tuple[float, dict[str, float], bool]]:
+def to_params(fit: FastFit, d: int, D: int) -> dict[str, float]:
+    """statsmodels-named parameters (``const``/``drift``, ``ar.L1`` ..., ``sigma2``) of a fit."""
+    m = fit.m
+    params: dict[str, float] = {}
+    if fit.mean:
+        lag = m if (D and not d) else 1
+        params["const" if d + D == 0 else "drift"] = fit.mu / lag
+    params.update({f"ar.L{i + 1}": float(v) for i, v in enumerate(fit.ar)})
+    params.update({f"ma.L{j + 1}": float(v) for j, v in enumerate(fit.ma)})
+    params.update({f"ar.S.L{m * (i + 1)}": float(v) for i, v in enumerate(fit.seasonal_ar)})
+    params.update({f"ma.S.L{m * (j + 1)}": float(v) for j, v in enumerate(fit.seasonal_ma)})
+    params["sigma2"] = fit.sigma2
+    return params
+
+
+def to_start(params: dict[str, float], order, seasonal, constant: bool) -> np.ndarray | None:
+    """Unconstrained start ``[ar, ma, sar, sma, mean]`` from statsmodels-named parameters.
+
+    None when a polynomial is not strictly stationary/invertible (no valid start).
+    """
+    p, d, q = order
+    P, D, Q, m = seasonal if seasonal else (0, 0, 0, 1)
+    blocks = []
+    for names, sign in (
+        ([f"ar.L{i}" for i in range(1, p + 1)], 1.0),
+        ([f"ma.L{j}" for j in range(1, q + 1)], -1.0),
+        ([f"ar.S.L{m * i}" for i in range(1, P + 1)], 1.0),
+        ([f"ma.S.L{m * j}" for j in range(1, Q + 1)], -1.0),
+    ):
+        coefs = sign * np.array([params.get(n, 0.0) for n in names], dtype=float)
+        if not roots_outside(coefs, 1.0):
+            return None
+        blocks.append(unconstrain(coefs))
+    if constant:
+        lag = m if (D and not d) else 1
+        value = params.get("const" if d + D == 0 else "drift", 0.0)
+        blocks.append(np.array([value * lag]))
+    return np.concatenate(blocks) if blocks else np.zeros(0)
+
+
+def screen_specs(
+    z: np.ndarray, specs: list[Spec], *, margin: float = SCREEN_MARGIN, cold_check: int = COLD_CHECK
+) -> dict[Spec, tuple[float, dict[str, float], bool, bool]]:
     """Screen ARIMA specifications on a transformed series with the compiled likelihood.
 
     Parameters
     ----------
     z : numpy.ndarray
-        The transformed series in time order (NaN for missing periods).
+        The transformed series in time order (NaN for missing periods). Differencing must hide
+        no gap (the caller checks): a series with gaps is screened only at d = D = 0.
     specs : list of ((p, d, q), (P, D, Q, m) or None, constant)
         The orders to screen.
+    margin : float
+        Orders whose screened AICc is within this of the best are fitted to convergence on
+        the exact likelihood (AICc units).
+    cold_check : int
+        The best few after that are refitted from a cold start; the higher optimum is kept.
 
     Returns
     -------
     dict
-        spec -> (AICc, start parameters by statsmodels name, converged). AICc counts k and n
-        as statsmodels does (sigma2 included; n = observations after differencing). With
-        d + D > 0 a missing value also hides its neighbours' differences, so the screening
-        likelihood of a gappy differenced series is approximate: the exact refit decides.
+        spec -> (AICc, parameters by statsmodels name, converged, exact). ``exact`` is True
+        when the numbers are the exact-likelihood optimum; otherwise they are the exact
+        likelihood at the least-squares (or loosely converged) estimate, so their AICc is an
+        upper bound of the order's best. AICc counts k and n as statsmodels does (sigma2
+        included; n = observations after differencing).
     """
     with _one_blas_thread():
-        return _screen_specs(z, specs)
+        return _screen_specs(z, specs, margin, cold_check)
 
 
 def _one_blas_thread():
-    """L-BFGS-B calls BLAS on vectors of a few numbers; extra BLAS threads only spin-wait."""
-    from threadpoolctl import threadpool_limits
+    """Tiny vectors and matrices: extra BLAS threads only spin-wait."""
+    from forecasting_core._arima import one_blas_thread
 
-    return threadpool_limits(limits=1, user_api="blas")
+    return one_blas_thread()
 
 
-def _screen_specs(z: np.ndarray, specs: list[Spec]) -> dict[Spec, tuple[float, dict[str, float], bool]]:
-    out: dict[Spec, tuple[float, dict[str, float], bool]] = {}
+def _complexity(spec: Spec) -> tuple:
+    (p, d, q), seas, const = spec
+    P, D, Q, m = seas if seas else (0, 0, 0, 1)
+    return (d, D, m, const, p + q + P + Q, p, P, Q)
+
+
+def _screen_specs(z, specs, margin, cold_check):
     seen = int(np.isfinite(z).sum())
-    fits: dict[tuple, FastFit] = {}
+    fits: dict[Spec, FastFit] = {}
+    exact: dict[Spec, bool] = {}
+    series: dict[tuple, np.ndarray] = {}
+    by_key: dict[tuple, FastFit] = {}
 
-    def complexity(spec: Spec) -> tuple:
+    def parts(spec):
         (p, d, q), seas, const = spec
         P, D, Q, m = seas if seas else (0, 0, 0, 1)
-        return (d, D, m, const, p + q + P + Q, p, P, Q)
+        return p, d, q, P, D, Q, m, const
 
-    for spec in sorted(specs, key=complexity):
-        (p, d, q), seas, const = spec
-        P, D, Q, m = seas if seas else (0, 0, 0, 1)
-        key = (d, D, m, const)
-        w = difference(z, d, D, m)
+    def nobs(spec):
+        p, d, q, P, D, Q, m, const = parts(spec)
+        return seen - d - D * m
+
+    for spec in sorted(specs, key=_complexity):
+        p, d, q, P, D, Q, m, const = parts(spec)
+        w = series.setdefault((d, D, m), difference(z, d, D, m))
+        gappy = not bool(np.isfinite(w).all())
         start = None
         for dp, dq, dP, dQ in ((1, 0, 0, 0), (0, 1, 0, 0), (0, 0, 1, 0), (0, 0, 0, 1)):
-            prev = fits.get((*key, p - dp, q - dq, P - dP, Q - dQ))
+            prev = by_key.get((d, D, m, const, p - dp, q - dq, P - dP, Q - dQ))
             if prev is not None and prev.converged:
                 start = _pad(prev, p, q, P, Q)
                 break
-        fit = fit_arma(w, p, q, const, P=P, Q=Q, m=m, start=start)
-        fits[(*key, p, q, P, Q)] = fit
-        params: dict[str, float] = {}
-        if const:
-            lag = m if (D and not d) else 1
-            params["const" if d + D == 0 else "drift"] = fit.mu / lag
-        params.update({f"ar.L{i + 1}": float(v) for i, v in enumerate(fit.ar)})
-        params.update({f"ma.L{j + 1}": float(v) for j, v in enumerate(fit.ma)})
-        params.update({f"ar.S.L{m * (i + 1)}": float(v) for i, v in enumerate(fit.seasonal_ar)})
-        params.update({f"ma.S.L{m * (j + 1)}": float(v) for j, v in enumerate(fit.seasonal_ma)})
-        params["sigma2"] = fit.sigma2
-        out[spec] = (fit.aicc(seen - d - D * m), params, fit.converged)
+        if gappy:
+            fit = fit_arma(w, p, q, const, P=P, Q=Q, m=m, start=start, gtol=SCREEN_GTOL, maxiter=60)
+        else:
+            fit = fit_arma(w, p, q, const, P=P, Q=Q, m=m, start=start, gtol=CSS_GTOL, maxiter=CSS_MAXITER, kind="css")
+        by_key[(d, D, m, const, p, q, P, Q)] = fit
+        fits[spec] = fit
+        exact[spec] = False
+
+    def aicc(spec):
+        return fits[spec].aicc(nobs(spec))
+
+    def refine(spec, start, hess_inv=None):
+        p, d, q, P, D, Q, m, const = parts(spec)
+        return fit_arma(series[(d, D, m)], p, q, const, P=P, Q=Q, m=m, start=start, hess_inv=hess_inv)
+
+    scores = {s: aicc(s) for s in fits}
+    best = min((v for v in scores.values() if math.isfinite(v)), default=math.inf)
+    for spec in [s for s in specs if scores[s] <= best + margin]:
+        # the least-squares curvature is close to the likelihood's: a good first inverse Hessian
+        fit = refine(spec, fits[spec].x, fits[spec].hess_inv)
+        if fit.converged or fit.loglik > fits[spec].loglik:
+            fits[spec] = fit
+            exact[spec] = fit.converged
+    ranked = sorted((s for s in specs if exact[s]), key=aicc)
+    for spec in ranked[:cold_check]:
+        cold = refine(spec, None)
+        if cold.converged and cold.loglik > fits[spec].loglik + 1e-6:
+            fits[spec] = cold
+    out = {}
+    for spec in specs:
+        p, d, q, P, D, Q, m, const = parts(spec)
+        fit = fits[spec]
+        out[spec] = (aicc(spec), to_params(fit, d, D), fit.converged, exact[spec])
     return out
 
 
 def warm_up() -> None:
-    """Compile (or load from numba's on-disk cache) the screening code.
+    """Compile (or load from numba's on-disk cache) the fast path's code.
 
-    A server calls this at start so that no user request pays for the compile (about 13 s
-    cold on a 2-core machine, well under a second from the cache). Safe to call twice.
+    A server calls this at start so that no user request pays for the compile (tens of
+    seconds cold on a 2-core machine, well under a second from the cache). Safe to call twice.
     """
-    w = np.array([0.1, -0.2, 0.3, np.nan, 0.05, -0.1, 0.2, 0.0])
+    from forecasting_core._fastforecast import arima_forecast
+
+    w = np.array([0.1, -0.2, 0.3, np.nan, 0.05, -0.1, 0.2, 0.0, 0.15, -0.05])
     fit_arma(w, 1, 1, True)
+    fit_arma(np.nan_to_num(w), 1, 1, True, kind="css")
     fit_arma(w, 1, 0, False, P=1, Q=1, m=2)
+    arima_forecast(np.cumsum(np.nan_to_num(w)), (1, 1, 1), None, True, {"drift": 0.0, "ar.L1": 0.2, "ma.L1": 0.1, "sigma2": 1.0}, 3)

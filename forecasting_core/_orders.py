@@ -41,9 +41,9 @@ __all__ = ["constant_allowed", "exhaustive_search", "grid", "rank", "stepwise_se
 REFINE_MARGIN = 6.0
 #: The best few after the full fit are also refitted from statsmodels' default start.
 COLD_CHECK = 3
-#: The same two numbers when the compiled exact likelihood did the screening.
-FAST_REFINE_MARGIN = 3.0
-FAST_COLD_CHECK = 2
+#: With the compiled path: this many of the best orders are handed to statsmodels
+#: (``filter(params)`` at the compiled optimum) for the reported numbers and root checks.
+FAST_FINAL = 3
 
 Spec = tuple[tuple[int, int, int], tuple[int, int, int, int] | None, bool]
 
@@ -146,7 +146,7 @@ def _fast_candidates(y: pd.Series, spec: TransformSpec, specs: list[Spec]) -> li
     seen = int(np.isfinite(z).sum())
     out = []
     for order, seasonal, constant in specs:
-        aicc, params, converged = screened[(order, seasonal, constant)]
+        aicc, params, converged, _ = screened[(order, seasonal, constant)]
         m = seasonal[3] if seasonal else 1
         nobs = seen - order[1] - (seasonal[1] * m if seasonal else 0)
         k = order[0] + order[2] + (seasonal[0] + seasonal[2] if seasonal else 0) + int(constant) + 1
@@ -180,7 +180,7 @@ def _fast_candidates(y: pd.Series, spec: TransformSpec, specs: list[Spec]) -> li
             transform=spec,
             series=y,
         )
-        worst = _nearest_root(ar, ma, sar, sma, m)
+        worst = None if _fastarma.admissible(ar, ma, sar, sma, m, ROOT_LIMIT) else _nearest_root(ar, ma, sar, sma, m)
         if worst is not None and worst[1] < ROOT_LIMIT:
             kind, modulus = worst
             word = "non-stationary" if kind == "AR" else "non-invertible"
@@ -212,6 +212,23 @@ def _nearest_root(ar, ma, sar, sma, m: int) -> tuple[str, float] | None:
     return nearest
 
 
+def _fast_search(y: pd.Series, spec: TransformSpec, specs: list[Spec]) -> list[Candidate]:
+    """The compiled path: screen and refine in compiled code, statsmodels numbers for the best few.
+
+    The best ``FAST_FINAL`` accepted orders (exact-likelihood optima) are handed to
+    statsmodels' ``filter(params)``: their likelihood, AICc and root checks are statsmodels'
+    own. The others keep the compiled numbers (exact likelihood at their estimate).
+    """
+    from forecasting_core._arima import candidate_at
+
+    results = _fast_candidates(y, spec, specs)
+    top = sorted((i for i, c in enumerate(results) if c.ok), key=lambda i: results[i].aicc)[:FAST_FINAL]
+    for i in top:
+        c = results[i]
+        results[i] = candidate_at(y, c.order, c.seasonal_order, c.constant, spec, c.params)
+    return results
+
+
 def exhaustive_search(
     y: pd.Series,
     spec: TransformSpec,
@@ -226,16 +243,12 @@ def exhaustive_search(
     (:func:`fast_screen_usable`), ``"statsmodels"`` always with statsmodels; the full fits and
     every number reported for them come from statsmodels either way.
     """
+    if engine == "auto" and fast_screen_usable(y, spec, chains):
+        return _fast_search(y, spec, [s for chain in chains for s in chain])
     mapper, close = _mapper(workers)
     try:
         margin, cold_check = REFINE_MARGIN, COLD_CHECK
-        if engine == "auto" and fast_screen_usable(y, spec, chains):
-            screened = _fast_candidates(y, spec, [s for chain in chains for s in chain])
-            # The compiled screen is already the exact likelihood at its optimum, so only
-            # the near-best orders need statsmodels' fit (and its own check of the optimum).
-            margin, cold_check = FAST_REFINE_MARGIN, FAST_COLD_CHECK
-        else:
-            screened = [c for chain in mapper(_run_chain, [(y, spec, ch) for ch in chains]) for c in chain]
+        screened = [c for chain in mapper(_run_chain, [(y, spec, ch) for ch in chains]) for c in chain]
         score = [c.aicc if c.params else math.inf for c in screened]
         best = min(score, default=math.inf)
         # full fits: promising screens, including unconverged loose fits whose last iterate

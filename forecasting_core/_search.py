@@ -8,6 +8,7 @@ the hindcast uses. The search algorithms themselves live in ``_orders``.
 from __future__ import annotations
 
 import datetime as _dt
+import functools
 import hashlib
 from collections.abc import Sequence
 from importlib import metadata
@@ -135,6 +136,18 @@ def fit_model(
 
 
 
+@functools.cache
+def _versions() -> dict[str, str | None]:
+    """Installed versions of the packages behind a result (read once per process: ~5 ms each)."""
+    versions = {}
+    for pkg in ("numpy", "pandas", "scipy", "statsmodels", "haulcast"):
+        try:
+            versions[pkg] = metadata.version(pkg)
+        except metadata.PackageNotFoundError:
+            versions[pkg] = None
+    return versions
+
+
 def _provenance(y: pd.Series) -> dict[str, Any]:
     values = np.asarray(y, dtype=float)
     digest = hashlib.sha256()
@@ -143,12 +156,7 @@ def _provenance(y: pd.Series) -> dict[str, Any]:
     digest.update(",".join(str(p) for p in y.index).encode("utf-8"))
     digest.update(b"\0")
     digest.update(np.ascontiguousarray(values).tobytes())
-    versions = {}
-    for pkg in ("numpy", "pandas", "scipy", "statsmodels", "haulcast"):
-        try:
-            versions[pkg] = metadata.version(pkg)
-        except metadata.PackageNotFoundError:
-            versions[pkg] = None
+    versions = dict(_versions())
     return {
         "series_sha256": digest.hexdigest(),
         "hashed": "series name, periods and float64 values",
@@ -219,9 +227,11 @@ def compare_models(
     workers : int
         Worker processes for the order search (1 = this process). Results do not depend on it.
     engine : {"auto", "statsmodels"}
-        How the exhaustive grid is screened: ``"auto"`` with the compiled exact likelihood when
-        numba is installed and differencing hides no gap, ``"statsmodels"`` always with
-        statsmodels. Every reported fit of the promising orders comes from statsmodels.
+        ``"auto"``: when numba is installed, the exhaustive grid is screened and fitted with the
+        compiled exact likelihood (where differencing hides no gap) and the hindcast refits
+        and forecasts run in compiled code; the best few orders are handed to statsmodels
+        (``filter`` at the compiled optimum), so their likelihood, AICc and roots are
+        statsmodels' own. ``"statsmodels"``: statsmodels fits throughout (the fallback).
 
     Returns
     -------
@@ -312,7 +322,7 @@ def compare_models(
     hind = None
     if hindcast:
         models = ([best] if best.ok else []) + accepted[1:3] + list(benchmarks)
-        hind = _hindcast(y, models, horizon, hindcast_origins, warnings_)
+        hind = _hindcast(y, models, horizon, hindcast_origins, warnings_, engine)
     diagnostics = None
     if best.ok:
         from forecasting_core._diagnostics import check_residuals
@@ -370,13 +380,13 @@ def _benchmarks(y: pd.Series, spec: TransformSpec, warnings_: list[str]) -> tupl
         return ()
 
 
-def _hindcast(y, models, horizon, origins, warnings_):
+def _hindcast(y, models, horizon, origins, warnings_, engine="auto"):
     from forecasting_core._hindcast import run_hindcast
 
     if not models:
         return None
     try:
-        return run_hindcast(y, models=models, horizon=horizon, origins=origins)
+        return run_hindcast(y, models=models, horizon=horizon, origins=origins, engine=engine)
     except NotImplementedError:
         return None
     except InputError as exc:

@@ -162,7 +162,7 @@ def test_rejected_refit_is_recorded_skipped_and_named_in_the_verdict(monkeypatch
     monkeypatch.setattr(search_mod, "fit_order", fake_fit_order, raising=False)
     monkeypatch.setattr(forecast_mod, "predictive", fake_predictive, raising=False)
     chosen = _fake_candidate(Y8)
-    h = run_hindcast(Y8, [chosen], horizon=2, origins=3)
+    h = run_hindcast(Y8, [chosen], horizon=2, origins=3, engine="statsmodels")
     # Refit on data up to each origin (5, 6, 7 values), warm-started from the model's params.
     assert calls == [(5, {"sigma2": 1.0}), (6, {"sigma2": 1.0}), (7, {"sigma2": 1.0})]
     assert h.skipped == (

@@ -1,0 +1,514 @@
+"""Compiled kernels of the fast ARIMA path: Kalman filters, objectives and a BFGS optimiser.
+
+Every function here is written once in plain Python/numpy (``*_py``) and compiled with numba
+when it is installed (``cache=True``: compiled code is kept on disk, so the compile cost is
+paid once per machine). Without numba the plain versions run and give the same numbers.
+``_fastarma`` holds the Python-level API on top of these kernels.
+
+Sign convention: x_t = sum phi_i x_{t-i} + e_t + sum theta_j e_{t-j}.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+try:  # numba is optional: the pure-numpy path gives the same results, only slower.
+    import numba
+
+    HAVE_NUMBA = True
+except ImportError:  # pragma: no cover - exercised by the fallback test through monkeypatching
+    numba = None
+    HAVE_NUMBA = False
+
+_LOG_2PI = math.log(2.0 * math.pi)
+
+
+def _harvey_loglik_py(w: np.ndarray, phi: np.ndarray, theta: np.ndarray) -> tuple[float, float, int]:
+    """Kalman filter of a zero-mean ARMA with unit innovation variance.
+
+    Returns (sum of v_t^2 / F_t, sum of log F_t, number of observations used); the caller
+    concentrates sigma2 out. ``phi``/``theta`` follow x_t = sum phi_i x_{t-i} + e_t + sum theta_j e_{t-j}.
+    The transition matrix is the companion form (first column phi, ones above the diagonal), so
+    every product with it is written out in O(r^2) loops without temporary arrays or BLAS calls:
+    (T M)[i, j] = phi_i M[0, j] + M[i+1, j].
+    """
+    p = phi.shape[0]
+    q = theta.shape[0]
+    r = max(p, q + 1)
+    ph = np.zeros(r)
+    for i in range(p):
+        ph[i] = phi[i]
+    R = np.zeros(r)
+    R[0] = 1.0
+    for j in range(q):
+        R[j + 1] = theta[j]
+    # Unconditional state covariance P = T P T' + R R' by fixed-point iteration with doubling
+    # of the horizon covered: P_{k+1} = P_k + A_k P_k A_k', A_{k+1} = A_k A_k, A_0 = T.
+    P = np.empty((r, r))
+    for i in range(r):
+        for j in range(r):
+            P[i, j] = R[i] * R[j]
+    A = np.zeros((r, r))
+    for i in range(r):
+        A[i, 0] = ph[i]
+        if i + 1 < r:
+            A[i, i + 1] = 1.0
+    AP = np.empty((r, r))
+    AA = np.empty((r, r))
+    for _ in range(64):
+        for i in range(r):
+            for j in range(r):
+                acc = 0.0
+                for k in range(r):
+                    acc += A[i, k] * P[k, j]
+                AP[i, j] = acc
+        biggest = 0.0
+        for i in range(r):
+            for j in range(r):
+                acc = 0.0
+                for k in range(r):
+                    acc += AP[i, k] * A[j, k]
+                P[i, j] += acc
+        for i in range(r):
+            for j in range(r):
+                acc = 0.0
+                for k in range(r):
+                    acc += A[i, k] * A[k, j]
+                AA[i, j] = acc
+                if abs(acc) > biggest:
+                    biggest = abs(acc)
+        for i in range(r):
+            for j in range(r):
+                A[i, j] = AA[i, j]
+        if biggest < 1e-13:
+            break
+    a = np.zeros(r)
+    K = np.empty(r)
+    row0 = np.empty(r)
+    TP = np.empty((r, r))
+    ssq = 0.0
+    sumlog = 0.0
+    nobs = 0
+    for t in range(w.shape[0]):
+        y = w[t]
+        if not math.isnan(y):
+            F = P[0, 0]
+            if not F > 0.0:
+                return math.inf, math.inf, 0
+            v = y - a[0]
+            for i in range(r):
+                K[i] = P[i, 0] / F
+            for i in range(r):
+                a[i] += K[i] * v
+            for j in range(r):
+                row0[j] = P[0, j]
+            for i in range(r):
+                for j in range(r):
+                    P[i, j] -= K[i] * row0[j]
+            ssq += v * v / F
+            sumlog += math.log(F)
+            nobs += 1
+        # Predict: a <- T a, P <- T P T' + R R'.
+        a0 = a[0]
+        for i in range(r - 1):
+            a[i] = ph[i] * a0 + a[i + 1]
+        a[r - 1] = ph[r - 1] * a0
+        for i in range(r):
+            for j in range(r):
+                TP[i, j] = ph[i] * P[0, j] + (P[i + 1, j] if i + 1 < r else 0.0)
+        for i in range(r):
+            for j in range(r):
+                P[i, j] = TP[i, 0] * ph[j] + (TP[i, j + 1] if j + 1 < r else 0.0) + R[i] * R[j]
+    return ssq, sumlog, nobs
+
+
+def _constrain_py(x: np.ndarray) -> np.ndarray:
+    n = x.shape[0]
+    phi = np.zeros(n)
+    prev = np.zeros(n)
+    for k in range(n):
+        rk = x[k] / math.sqrt(1.0 + x[k] * x[k])
+        for j in range(k):
+            prev[j] = phi[j]
+        phi[k] = rk
+        for j in range(k):
+            phi[j] = prev[j] - rk * prev[k - 1 - j]
+    return phi
+
+
+def _expand_py(short: np.ndarray, seasonal: np.ndarray, m: int, sign: float) -> np.ndarray:
+    """Lag coefficients of (1 + sign*sum a_i B^i)(1 + sign*sum A_j B^{mj}), times sign."""
+    p = short.shape[0]
+    big = seasonal.shape[0]
+    out = np.zeros(p + m * big)
+    for i in range(p):
+        out[i] += short[i]
+    for j in range(big):
+        out[m * (j + 1) - 1] += seasonal[j]
+        for i in range(p):
+            out[m * (j + 1) + i] += sign * short[i] * seasonal[j]
+    return out
+
+
+def _negloglik_py(
+    x: np.ndarray, ws: np.ndarray, p: int, q: int, P: int, Q: int, m: int, mean: bool
+) -> float:
+    """Concentrated negative log-likelihood at unconstrained parameters x (standardised scale)."""
+    ar = _constrain(x[:p])
+    ma = -_constrain(x[p : p + q])
+    sar = _constrain(x[p + q : p + q + P])
+    sma = -_constrain(x[p + q + P : p + q + P + Q])
+    if P > 0 or Q > 0:
+        phi = _expand(ar, sar, m, -1.0)
+        theta = _expand(ma, sma, m, 1.0)
+    else:
+        phi = ar
+        theta = ma
+    mu = x[p + q + P + Q] if mean else 0.0
+    ssq, sumlog, n = _harvey_loglik(ws - mu, phi, theta)
+    if n == 0 or not (ssq > 0.0) or not math.isfinite(ssq):
+        return 1e10
+    return 0.5 * (n * (_LOG_2PI + math.log(ssq / n) + 1.0) + sumlog)
+
+
+def _value_and_grad_py(
+    x: np.ndarray, ws: np.ndarray, p: int, q: int, P: int, Q: int, m: int, mean: bool
+) -> tuple[float, np.ndarray]:
+    """Negative log-likelihood and its forward-difference gradient in one compiled call."""
+    f0 = _negloglik(x, ws, p, q, P, Q, m, mean)
+    k = x.shape[0]
+    grad = np.zeros(k)
+    xh = x.copy()
+    for i in range(k):
+        h = 1e-7 * max(1.0, abs(x[i]))
+        xh[i] = x[i] + h
+        grad[i] = (_negloglik(xh, ws, p, q, P, Q, m, mean) - f0) / h
+        xh[i] = x[i]
+    return f0, grad
+
+
+def _css_py(x: np.ndarray, ws: np.ndarray, p: int, q: int, P: int, Q: int, m: int, mean: bool) -> float:
+    """Concentrated conditional-sum-of-squares objective at unconstrained parameters x.
+
+    Residuals e_t = w_t - mu - sum phi_i (w_{t-i} - mu) - sum theta_j e_{t-j} for t >= the AR
+    span, with earlier residuals set to zero (Box & Jenkins' conditional likelihood);
+    returns (n / 2) log(sum e_t^2 / n). ``ws`` must have no missing values.
+    """
+    ar = _constrain(x[:p])
+    ma = -_constrain(x[p : p + q])
+    sar = _constrain(x[p + q : p + q + P])
+    sma = -_constrain(x[p + q + P : p + q + P + Q])
+    if P > 0 or Q > 0:
+        phi = _expand(ar, sar, m, -1.0)
+        theta = _expand(ma, sma, m, 1.0)
+    else:
+        phi = ar
+        theta = ma
+    mu = x[p + q + P + Q] if mean else 0.0
+    n = ws.shape[0]
+    lp = phi.shape[0]
+    lq = theta.shape[0]
+    e = np.zeros(n)
+    ssq = 0.0
+    count = 0
+    for t in range(lp, n):
+        v = ws[t] - mu
+        for i in range(lp):
+            v -= phi[i] * (ws[t - 1 - i] - mu)
+        for j in range(lq):
+            if t - 1 - j >= lp:
+                v -= theta[j] * e[t - 1 - j]
+        e[t] = v
+        ssq += v * v
+        count += 1
+    if count == 0 or not (ssq > 0.0) or not math.isfinite(ssq):
+        return 1e10
+    return 0.5 * count * math.log(ssq / count)
+
+
+def _objective_py(
+    x: np.ndarray, ws: np.ndarray, p: int, q: int, P: int, Q: int, m: int, mean: bool, kind: int
+) -> float:
+    """kind 0: exact negative log-likelihood; kind 1: conditional sum of squares."""
+    if kind == 1:
+        return _css(x, ws, p, q, P, Q, m, mean)
+    return _negloglik(x, ws, p, q, P, Q, m, mean)
+
+
+def _gradient_py(
+    x: np.ndarray, f0: float, ws: np.ndarray, p: int, q: int, P: int, Q: int, m: int, mean: bool,
+    kind: int, central: bool, g: np.ndarray,
+) -> None:
+    """Forward (or central) finite-difference gradient written into ``g``."""
+    xh = x.copy()
+    for i in range(x.shape[0]):
+        if central:
+            h = 1e-5 * max(1.0, abs(x[i]))
+            xh[i] = x[i] + h
+            fp = _objective(xh, ws, p, q, P, Q, m, mean, kind)
+            xh[i] = x[i] - h
+            fm = _objective(xh, ws, p, q, P, Q, m, mean, kind)
+            g[i] = (fp - fm) / (2.0 * h)
+        else:
+            h = 1e-7 * max(1.0, abs(x[i]))
+            xh[i] = x[i] + h
+            g[i] = (_objective(xh, ws, p, q, P, Q, m, mean, kind) - f0) / h
+        xh[i] = x[i]
+
+
+def _bfgs_py(
+    x0: np.ndarray, H0: np.ndarray, ws: np.ndarray, p: int, q: int, P: int, Q: int, m: int, mean: bool,
+    kind: int, maxiter: int, gtol: float, central: bool,
+) -> tuple[np.ndarray, float, int, int, np.ndarray]:
+    """Minimise the objective by BFGS with a backtracking (Armijo) line search.
+
+    ``H0`` is a starting inverse Hessian (k x k, e.g. a neighbouring fit's final one, which
+    cuts the iterations of a warm start several-fold) or an empty (0 x 0) array for the
+    identity. Returns (x, f, status, iterations, inverse Hessian); status 0 converged (largest
+    gradient component below ``gtol``, or no further decrease possible at a gradient below
+    100 gtol), 1 iteration cap, 2 the line search failed away from an optimum.
+    """
+    k = x0.shape[0]
+    x = x0.copy()
+    f = _objective(x, ws, p, q, P, Q, m, mean, kind)
+    g = np.empty(k)
+    _gradient(x, f, ws, p, q, P, Q, m, mean, kind, central, g)
+    fresh = True
+    H = np.eye(k)
+    if H0.shape[0] == k and k > 0:
+        H = H0.copy()
+        fresh = False
+    gn = np.empty(k)
+    status = 1
+    it = 0
+    while it < maxiter:
+        gmax = 0.0
+        for i in range(k):
+            if abs(g[i]) > gmax:
+                gmax = abs(g[i])
+        if gmax < gtol:
+            status = 0
+            break
+        d = -(H @ g)
+        slope = 0.0
+        for i in range(k):
+            slope += d[i] * g[i]
+        if not slope < 0.0:
+            H = np.eye(k)
+            fresh = True
+            d = -g.copy()
+            slope = -(g @ g)
+        step = 1.0
+        if fresh:
+            dmax = 0.0
+            for i in range(k):
+                if abs(d[i]) > dmax:
+                    dmax = abs(d[i])
+            if dmax > 1.0:
+                step = 1.0 / dmax
+        ok = False
+        fnew = f
+        xnew = x.copy()
+        for _ in range(40):
+            for i in range(k):
+                xnew[i] = x[i] + step * d[i]
+            fnew = _objective(xnew, ws, p, q, P, Q, m, mean, kind)
+            if fnew <= f + 1e-4 * step * slope:
+                ok = True
+                break
+            # quadratic interpolation, kept within [0.1, 0.5] of the last step
+            denom = 2.0 * (fnew - f - slope * step)
+            trial = -slope * step * step / denom if denom > 0.0 and math.isfinite(denom) else 0.5 * step
+            step = min(max(trial, 0.1 * step), 0.5 * step)
+        if not ok:
+            if fresh:
+                status = 0 if gmax < 100.0 * gtol else 2
+                break
+            H = np.eye(k)
+            fresh = True
+            continue
+        _gradient(xnew, fnew, ws, p, q, P, Q, m, mean, kind, central, gn)
+        s = xnew - x
+        yv = gn - g
+        sy = s @ yv
+        if sy > 1e-12:
+            if fresh:
+                H = np.eye(k) * (sy / (yv @ yv))
+            Hy = H @ yv
+            yHy = yv @ Hy
+            for i in range(k):
+                for j in range(k):
+                    H[i, j] += ((sy + yHy) * s[i] * s[j]) / (sy * sy) - (Hy[i] * s[j] + s[i] * Hy[j]) / sy
+            fresh = False
+        small = abs(f - fnew) <= 1e-13 * max(1.0, abs(f))
+        x = xnew
+        f = fnew
+        for i in range(k):
+            g[i] = gn[i]
+        it += 1
+        if small:
+            gmax = 0.0
+            for i in range(k):
+                if abs(g[i]) > gmax:
+                    gmax = abs(g[i])
+            status = 0 if gmax < 100.0 * gtol else 2
+            break
+    return x, f, status, it, H
+
+
+def _arima_filter_py(
+    u: np.ndarray, phi: np.ndarray, theta: np.ndarray, delta: np.ndarray, steps: int
+) -> tuple[float, float, int, np.ndarray, np.ndarray]:
+    """Kalman filter of an ARIMA (differencing in the state) and its forecasts.
+
+    ``u`` is the series with its regression part (constant or drift) removed; with
+    ``K = len(delta)`` the differencing (1 - sum delta_i B^i) = (1 - B)^d (1 - B^m)^D, the
+    first K values must be observed: they fix the integrated part of the state exactly and
+    the ARMA part starts at its stationary distribution (the exact diffuse likelihood).
+    Later values may be NaN. Unit innovation variance: multiply variances by sigma2.
+
+    Returns (sum v^2 / F, sum log F, observations used, forecast means, forecast variances)
+    for the ``steps`` periods after the end of ``u``.
+    """
+    p = phi.shape[0]
+    q = theta.shape[0]
+    r = max(p, q + 1)
+    K = delta.shape[0]
+    s = r + K
+    ph = np.zeros(r)
+    for i in range(p):
+        ph[i] = phi[i]
+    R = np.zeros(r)
+    R[0] = 1.0
+    for j in range(q):
+        R[j + 1] = theta[j]
+    P = np.zeros((s, s))
+    P0 = _stationary_cov(ph, R)
+    for i in range(r):
+        for j in range(r):
+            P[i, j] = P0[i, j]
+    a = np.zeros(s)
+    for i in range(K):
+        a[r + i] = u[K - 1 - i]
+    Z = np.zeros(s)
+    Z[0] = 1.0
+    for i in range(K):
+        Z[r + i] = delta[i]
+    PZ = np.empty(s)
+    TP = np.empty((s, s))
+    ssq = 0.0
+    sumlog = 0.0
+    nobs = 0
+    n = u.shape[0]
+    mean = np.empty(steps)
+    var = np.empty(steps)
+    for t in range(K, n + steps):
+        for i in range(s):
+            acc = 0.0
+            for j in range(s):
+                acc += P[i, j] * Z[j]
+            PZ[i] = acc
+        F = 0.0
+        fc = 0.0
+        for i in range(s):
+            F += Z[i] * PZ[i]
+            fc += Z[i] * a[i]
+        if t >= n:
+            mean[t - n] = fc
+            var[t - n] = F
+        elif not math.isnan(u[t]):
+            if not F > 0.0:
+                return math.inf, math.inf, 0, mean, var
+            v = u[t] - fc
+            for i in range(s):
+                a[i] += PZ[i] * v / F
+            for i in range(s):
+                for j in range(s):
+                    P[i, j] -= PZ[i] * PZ[j] / F
+            ssq += v * v / F
+            sumlog += math.log(F)
+            nobs += 1
+        # predict with the sparse transition: ARMA companion block, then u_t = Z s_t shifted in
+        new0 = 0.0
+        for j in range(s):
+            new0 += Z[j] * a[j]
+        a0 = a[0]
+        for i in range(K - 1, 0, -1):
+            a[r + i] = a[r + i - 1]
+        if K > 0:
+            a[r] = new0
+        for i in range(r - 1):
+            a[i] = ph[i] * a0 + a[i + 1]
+        a[r - 1] = ph[r - 1] * a0
+        _tmul_rows(P, TP, ph, Z, r, K)
+        # P <- TP T' + R R' : the same row operation applied to the transpose
+        for i in range(s):
+            for j in range(s):
+                P[j, i] = TP[i, j]
+        _tmul_rows(P, TP, ph, Z, r, K)
+        for i in range(s):
+            for j in range(s):
+                P[i, j] = TP[j, i]
+        for i in range(r):
+            for j in range(r):
+                P[i, j] += R[i] * R[j]
+    return ssq, sumlog, nobs, mean, var
+
+
+def _tmul_rows_py(M: np.ndarray, out: np.ndarray, ph: np.ndarray, Z: np.ndarray, r: int, K: int) -> None:
+    """out = T M for the ARIMA transition T (companion ARMA block, then the differencing rows)."""
+    s = r + K
+    for j in range(s):
+        m0 = M[0, j]
+        for i in range(r - 1):
+            out[i, j] = ph[i] * m0 + M[i + 1, j]
+        out[r - 1, j] = ph[r - 1] * m0
+        if K > 0:
+            acc = 0.0
+            for c in range(s):
+                acc += Z[c] * M[c, j]
+            out[r, j] = acc
+            for i in range(1, K):
+                out[r + i, j] = M[r + i - 1, j]
+
+
+def _stationary_cov_py(ph: np.ndarray, R: np.ndarray) -> np.ndarray:
+    """Unconstrained state covariance P = T P T' + R R' of the companion form (doubling)."""
+    r = ph.shape[0]
+    P = np.empty((r, r))
+    for i in range(r):
+        for j in range(r):
+            P[i, j] = R[i] * R[j]
+    A = np.zeros((r, r))
+    for i in range(r):
+        A[i, 0] = ph[i]
+        if i + 1 < r:
+            A[i, i + 1] = 1.0
+    for _ in range(64):
+        AP = A @ P
+        P += AP @ A.T
+        A = A @ A
+        if np.max(np.abs(A)) < 1e-13:
+            break
+    return P
+
+
+
+def _compile(f):
+    return numba.njit(cache=True)(f) if HAVE_NUMBA else f
+
+
+_harvey_loglik = _compile(_harvey_loglik_py)
+_constrain = _compile(_constrain_py)
+_expand = _compile(_expand_py)
+_negloglik = _compile(_negloglik_py)
+_value_and_grad = _compile(_value_and_grad_py)
+_css = _compile(_css_py)
+_objective = _compile(_objective_py)
+_gradient = _compile(_gradient_py)
+_bfgs = _compile(_bfgs_py)
+_arima_filter = _compile(_arima_filter_py)
+_tmul_rows = _compile(_tmul_rows_py)
+_stationary_cov = _compile(_stationary_cov_py)
