@@ -106,10 +106,12 @@ clientside_callback(
 # The address bar names the analysis being looked at, so it can be copied as a link.
 clientside_callback(
     """function (opened) {
-        if (opened && typeof opened.id === "string" && /^[0-9a-f]{32}$/.test(opened.id)) {
-            var want = "/board?analysis=" + opened.id;
-            if (window.location.pathname + window.location.search !== want) {
-                window.history.replaceState(window.history.state, "", want);
+        if (opened && typeof opened.id === "string" && /^[0-9a-f]{32}$/.test(opened.id)
+                && window.location.pathname === "/board") {
+            var params = new URLSearchParams(window.location.search);
+            if (params.get("analysis") !== opened.id) {
+                params.set("analysis", opened.id);
+                window.history.replaceState(window.history.state, "", "/board?" + params.toString());
             }
         }
         return window.dash_clientside.no_update;

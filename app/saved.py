@@ -268,9 +268,9 @@ def fmt_time(iso: str | None) -> str:
 
 #: How the home page orders its rows.
 SORTS = {
-    "stock": "Stock, then season (newest first)",
+    "stock": "Stock, then season",
     "newest": "Newest saved first",
-    "season": "Season (newest first), then stock",
+    "season": "Season, then stock",
 }
 
 
@@ -339,17 +339,25 @@ def _root(analysis: Any, by_id: Mapping[str, Any]) -> str:
 
 
 def latest_versions(analyses: Sequence[Any]) -> list[Any]:
-    """Only the highest version of each chain of revisions, in the given order.
+    """The highest version of each chain of revisions, and its highest published version when
+    that is an earlier one (a draft revision does not hide what was published), in the given
+    order.
 
     Chains are followed through ``parent_id`` among ``analyses`` themselves.
     """
     by_id = {str(_getter(a)("id")): a for a in analyses}
     best: dict[str, Any] = {}
+    published: dict[str, Any] = {}
     for a in analyses:
+        g = _getter(a)
         root = _root(a, by_id)
-        if root not in best or _getter(a)("version") > _getter(best[root])("version"):
+        if root not in best or g("version") > _getter(best[root])("version"):
             best[root] = a
-    keep = {id(a) for a in best.values()}
+        if g("status") == "published" and (
+            root not in published or g("version") > _getter(published[root])("version")
+        ):
+            published[root] = a
+    keep = {id(a) for a in (*best.values(), *published.values())}
     return [a for a in analyses if id(a) in keep]
 
 
@@ -371,3 +379,20 @@ def group_analyses(analyses: Sequence[Any], sort: str = "stock") -> list[tuple[s
         else:
             groups.append((heading, [a]))
     return groups
+
+
+def newer_version_numbers(analyses: Sequence[Any]) -> dict[str, int]:
+    """``{id: highest version of its chain}`` for every analysis that a later version revises.
+
+    Chains are followed through ``parent_id`` among ``analyses`` themselves.
+    """
+    by_id = {str(_getter(a)("id")): a for a in analyses}
+    top: dict[str, int] = {}
+    roots = {key: _root(a, by_id) for key, a in by_id.items()}
+    for key, a in by_id.items():
+        top[roots[key]] = max(top.get(roots[key], 0), int(_getter(a)("version")))
+    return {
+        key: top[roots[key]]
+        for key, a in by_id.items()
+        if int(_getter(a)("version")) < top[roots[key]]
+    }

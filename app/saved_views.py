@@ -44,12 +44,17 @@ def optional(value: Any, what: str, limit: int = 200) -> str:
     return text
 
 
+def _when(iso: str | None) -> html.Span:
+    """A time that never breaks over two lines."""
+    return html.Span(saved.fmt_time(iso), className="board-when")
+
+
 def signoff_items(analysis: Any) -> list[Any]:
     """The sign-offs as a dated list (oldest first)."""
     items = [
         html.Li(
             [
-                html.Span(saved.fmt_time(s.signed_at), className="board-signoff__when"),
+                html.Span(saved.fmt_time(s.signed_at), className="board-when board-signoff__when"),
                 " ",
                 html.Strong(s.name),
                 f" ({s.role})" if s.role else "",
@@ -81,9 +86,12 @@ def status_panel(
             )
         ]
     href = saved.open_href(analysis)
-    who = f"saved by {analysis.author} on {saved.fmt_time(analysis.created_at)}"
+    meta: list[Any] = [
+        f"{analysis.series}, season {analysis.season} \u00b7 saved by {analysis.author} ",
+        _when(analysis.created_at),
+    ]
     if analysis.published_at:
-        who += f"; published {saved.fmt_time(analysis.published_at)}"
+        meta += [" \u00b7 published ", _when(analysis.published_at)]
     parts: list[Any] = [
         html.P(
             [
@@ -95,13 +103,10 @@ def status_panel(
                 ),
                 " ",
                 html.Span(f"version {analysis.version}", id="board-saved-version"),
-                html.Span(
-                    f" \u00b7 {analysis.series}, season {analysis.season} \u00b7 {who}",
-                    className="hc-muted",
-                ),
             ],
             className="board-saved-head",
         ),
+        html.P(meta, className="hc-muted hc-small board-saved-meta"),
         html.P(
             [
                 "Link for the team: ",
@@ -206,7 +211,11 @@ def saved_section(opened: Mapping[str, Any] | None, note: Any = None) -> html.Se
         html.Div(
             [
                 _field(
-                    "Title", "board-save-title", maxLength=120, placeholder="e.g. Hake 2026 advice"
+                    "Title",
+                    "board-save-title",
+                    "Listed on the home page.",
+                    maxLength=120,
+                    placeholder="e.g. Hake 2026 advice",
                 ),
                 _field(
                     "Your name", "board-save-name", "Remembered in this browser.", maxLength=120
@@ -236,15 +245,26 @@ def saved_section(opened: Mapping[str, Any] | None, note: Any = None) -> html.Se
         ),
         html.Div(
             [
-                _field("Name", "board-signoff-name", maxLength=120),
-                _field(
-                    "Role", "board-signoff-role", maxLength=80, placeholder="e.g. Stock manager"
+                html.H3("Sign off this version", className="board-saved-sub"),
+                html.Div(
+                    [
+                        _field("Name", "board-signoff-name", maxLength=120),
+                        _field(
+                            "Role",
+                            "board-signoff-role",
+                            maxLength=80,
+                            placeholder="e.g. Stock manager",
+                        ),
+                        _field("Note", "board-signoff-note", maxLength=500, placeholder="optional"),
+                        html.Button(
+                            "Sign off", id="board-signoff", n_clicks=0, className="hc-button"
+                        ),
+                    ],
+                    className="hc-row",
                 ),
-                _field("Note", "board-signoff-note", maxLength=500, placeholder="optional"),
-                html.Button("Sign off", id="board-signoff", n_clicks=0, className="hc-button"),
             ],
             id="board-signoff-box",
-            className="hc-row board-signoff-box",
+            className="board-signoff-box",
             style=HIDE,
         ),
         html.Div(id="board-saved-msg", **{"aria-live": "polite"}),

@@ -185,14 +185,7 @@ def show_list(query: Any, status: Any, sort: Any, versions: Any) -> list[Any]:
             "",
         ]
     # the newest version number of each chain, to say when a row is superseded
-    newest: dict[str, int] = {}
-    latest = saved.latest_versions(everything)
-    by_id = {a.id: a for a in everything}
-    for top in latest:
-        current = top
-        while current.parent_id and current.parent_id in by_id:
-            newest[current.parent_id] = top.version
-            current = by_id[current.parent_id]
+    newest = saved.newer_version_numbers(everything)
     items = list(everything)
     if status in ("published", "draft"):
         items = [a for a in items if a.status == status]

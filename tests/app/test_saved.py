@@ -171,11 +171,14 @@ def test_the_newest_version_of_a_chain_is_found_from_any_version():
     assert saved.newest_in_chain(v3, [v3, v2, v1]) is None
 
 
-def test_only_the_latest_version_of_each_chain_is_listed_by_default():
+def test_the_latest_version_and_the_latest_published_one_are_listed_by_default():
     v1, v2, v3 = _chain()
     other = _analysis(id="9" * 32, series="cod_t")
-    assert saved.latest_versions([v3, other, v2, v1]) == [v3, other]
+    # v1 is the published one: a draft revision does not hide it
+    assert saved.latest_versions([v3, other, v2, v1]) == [v3, other, v1]
+    assert saved.latest_versions([v3, v2]) == [v3]
     assert saved.superseded_ids([v1, v2, v3]) == {v1.id, v2.id}
+    assert saved.newer_version_numbers([v3, other, v2, v1]) == {v1.id: 3, v2.id: 3}
 
 
 def test_groups_by_stock_then_season_newest_first():

@@ -1,0 +1,215 @@
+"""Saved analyses in real Chromium: two browsers on one server save, publish, find, reopen, sign
+off and revise an analysis, and the reopened board shows the saved numbers.
+
+Data: the Nile river flow series that statsmodels ships (statsmodels.datasets.nile, annual
+volumes 1871-1970, 10^8 m^3), uploaded as a CSV the way an analyst would.
+"""
+
+from __future__ import annotations
+
+import io
+import uuid
+from pathlib import Path
+
+import pandas as pd
+import statsmodels.api as sm
+from playwright.sync_api import expect
+
+import forecasting_core as fc
+from app import saved
+from app.analysis import LEVELS, compare_kwargs
+
+SCREENS = Path(__file__).resolve().parents[2] / "test-artifacts" / "screens"
+#: The first board visit may have to run the comparison (cold cache, busy machine).
+COMPARE_MS = 120_000
+
+
+def nile_csv() -> bytes:
+    data = sm.datasets.nile.load_pandas().data
+    frame = pd.DataFrame({"year": data["year"].astype(int), "nile_flow": data["volume"]})
+    return frame.to_csv(index=False).encode()
+
+
+def _wait_board(page, settle) -> None:
+    expect(page.locator("#board-summary p").first).to_be_visible(timeout=COMPARE_MS)
+    settle(page)
+    expect(page.locator("#board-saved-status p").first).to_be_visible(timeout=COMPARE_MS)
+    settle(page)
+
+
+def _table(page) -> list[str]:
+    return [t.strip() for t in page.locator("#board-table-rows tbody tr").all_inner_texts()]
+
+
+def _recomputed(store, analysis) -> fc.Forecast:
+    """The forecast made again from the stored dataset and settings, outside the app."""
+    settings = analysis.settings
+    y = store.load_table(analysis.dataset_id).series[analysis.series]
+    comparison = fc.compare_models(y, **compare_kwargs(settings["bench"], settings["transform"]))
+    candidate = comparison.candidate(analysis.model)
+    return fc.make_forecast(
+        candidate, horizon=settings["horizon"], levels=LEVELS, reference=settings["reference"]
+    )
+
+
+def test_two_browsers_save_publish_reopen_sign_off_and_revise(
+    new_page, open_page, settle, upload_file, live_app, screenshot
+):
+    token = uuid.uuid4().hex[:8]
+    title = f"Nile outlook {token}"
+    store = live_app.server.extensions["haulcast"]["store"]
+
+    # A uploads the file, opens the board and saves the forecast as a draft
+    ana = new_page()
+    open_page(ana, "/intake")
+    upload_file(ana, f"nile_{token}.csv", nile_csv())
+    expect(ana.locator("#hc-context-dataset")).to_have_text(f"nile_{token}.csv")
+    ana.locator("#hc-nav-board").click()
+    _wait_board(ana, settle)
+    expect(ana.locator("#board-saved-none")).to_be_visible()
+    expect(ana.locator("#board-publish-box")).to_be_hidden()
+    ana.fill("#board-save-title", title)
+    ana.fill("#board-save-name", "Ana Analyst")
+    expect(ana.locator("#board-save-season-hint")).to_contain_text("(1971)")  # the Nile ends 1970
+    ana.click("#board-save")
+    expect(ana.locator("#board-saved-state")).to_have_text("draft")
+    expect(ana.locator("#board-saved-version")).to_have_text("version 1")
+    expect(ana).to_have_url(f"{live_app.test_base_url}/board?analysis=" + _id_of(store, title, 1))
+    saved_rows = _table(ana)
+    ana.click("#board-publish")
+    expect(ana.locator("#board-saved-state")).to_have_text("published")
+    expect(ana.locator("#board-signoffs-none")).to_be_visible()
+    v1 = _id_of(store, title, 1)
+
+    # the stored forecast is the one recomputed from the dataset and the settings
+    first = store.get_analysis(v1)
+    assert first.season == "1971" and first.author == "Ana Analyst"
+    assert saved.forecast_differences(first.forecast, _recomputed(store, first).to_dict()) == []
+
+    # B, another browser, finds it on the home page by a word of its title
+    ben = new_page()
+    open_page(ben, "/", title="Saved analyses")
+    expect(ben.locator(".hc-nav__link--current .hc-nav__home")).to_have_text("Home")
+    ben.fill("#home-search", token)
+    rows = ben.locator(".home-table tbody tr")
+    expect(rows).to_have_count(1)
+    expect(rows.first).to_contain_text("published")
+    expect(rows.first).to_contain_text("Ana Analyst")
+    expect(ben.locator("#home-count")).to_have_text(f"1 analysis matching \u201c{token}\u201d")
+    screenshot(ben, "home-search")
+    rows.first.locator("a.home-open").click()
+    _wait_board(ben, settle)
+    expect(ben).to_have_url(f"{live_app.test_base_url}/board?analysis={v1}")
+    # the same numbers, its dataset now visible to B, the app's own check agreeing
+    assert _table(ben) == saved_rows
+    expect(ben.locator("#hc-context-dataset")).to_have_text(f"nile_{token}.csv")
+    expect(ben.locator("#board-saved-check")).to_contain_text("the same numbers as saved")
+    expect(ben.locator("#board-save")).to_have_text("Save analysis")
+
+    # B signs off
+    ben.fill("#board-signoff-name", "Ben Manager")
+    ben.fill("#board-signoff-role", "Stock manager")
+    ben.fill("#board-signoff-note", "Fine for Thursday's meeting")
+    ben.click("#board-signoff")
+    signoffs = ben.locator("#board-signoffs li")
+    expect(signoffs).to_have_count(1)
+    expect(signoffs.first).to_contain_text(
+        "Ben Manager (Stock manager): Fine for Thursday's meeting"
+    )
+    screenshot(ben, "board-signed-off")
+    ben.locator("#board-saved").screenshot(path=str(SCREENS / "board-saved-panel.png"))
+
+    # the CSV of the signed analysis carries the sign-off and every caution
+    with ben.expect_download() as info:
+        ben.click("#board-download-csv")
+    text = open(info.value.path(), encoding="utf-8").read()
+    assert f"# analysis: {title}" in text
+    assert (
+        "# sign-off: " in text
+        and "Ben Manager (Stock manager): Fine for Thursday's meeting" in text
+    )
+    for caution in fc.CAUTIONS:
+        assert caution.replace('"', "'") in text
+    assert len(pd.read_csv(io.StringIO(text), comment="#")) == len(saved_rows)
+
+    # A sees the sign-off on reopening the link
+    ana.reload()
+    _wait_board(ana, settle)
+    expect(ana.locator("#board-signoffs li")).to_contain_text(["Ben Manager"])
+
+    # A changes the reference level: the published version stays; saving makes version 2
+    ana.fill("#board-reference", "700")
+    ana.press("#board-reference", "Enter")
+    expect(ana.locator("#board-saved-changed")).to_be_visible()
+    expect(ana.locator("#board-signoff-box")).to_be_hidden()
+    expect(ana.locator("#board-save")).to_have_text("Save as version 2")
+    settle(ana)
+    ana.click("#board-save")
+    expect(ana.locator("#board-saved-version")).to_have_text("version 2")
+    expect(ana.locator("#board-saved-state")).to_have_text("draft")
+    v2 = store.get_analysis(_id_of(store, title, 2))
+    assert v2.parent_id == v1 and v2.settings["reference"] == 700.0
+    assert store.get_analysis(v1).settings["reference"] is None  # never edited in place
+    assert len(store.get_analysis(v1).signoffs) == 1
+
+    # B, still on version 1, is told that a newer version exists
+    ben.reload()
+    _wait_board(ben, settle)
+    expect(ben.locator("#board-saved-newer")).to_contain_text("version 2 (draft, by Ana Analyst")
+    expect(ben.locator("#board-saved-version")).to_have_text("version 1")
+    ben.locator("#board-saved").screenshot(path=str(SCREENS / "board-saved-newer.png"))
+
+
+def _id_of(store, title: str, version: int) -> str:
+    found = [a for a in store.list_analyses(query=title) if a.version == version]
+    assert len(found) == 1, [(a.title, a.version) for a in found]
+    return found[0].id
+
+
+def test_saving_needs_a_name_and_the_name_is_remembered_in_this_browser(
+    new_page, open_page, settle
+):
+    page = new_page()
+    open_page(page, "/board", settle=False)
+    _wait_board(page, settle)
+    page.click("#board-save")
+    expect(page.locator("#board-saved-msg [role=alert]")).to_contain_text(
+        "Your name is needed. Type it in the Your name box"
+    )
+    page.fill("#board-save-name", "Cleo Coder")
+    page.fill("#board-save-title", f"Demo draft {uuid.uuid4().hex[:8]}")
+    page.click("#board-save")
+    expect(page.locator("#board-saved-state")).to_have_text("draft")
+    # saving again with nothing changed makes no empty version
+    page.click("#board-save")
+    expect(page.locator("#board-saved-msg [role=alert]")).to_contain_text(
+        "nothing changed since version 1"
+    )
+    # another tab of the same browser (same localStorage) fills the name in
+    other = page.context.new_page()
+    open_page(other, "/board", settle=False)
+    _wait_board(other, settle)
+    expect(other.locator("#board-save-name")).to_have_value("Cleo Coder")
+    expect(other.locator("#board-signoff-name")).to_have_value("Cleo Coder")
+
+
+def test_a_broken_analysis_link_says_so_and_shows_the_board(page, open_page, settle):
+    open_page(page, "/board?analysis=" + "0" * 32, settle=False)
+    _wait_board(page, settle)
+    expect(page.locator("[role=alert]", has_text="cannot be opened")).to_contain_text(
+        "was not found"
+    )
+    expect(page.locator("#board-saved-none")).to_be_visible()
+
+
+def test_home_page_groups_by_stock_and_says_when_nothing_matches(page, open_page, screenshot):
+    open_page(page, "/", title="Saved analyses")
+    # the demo's published forecasts are listed, one heading per stock
+    headings = page.locator(".home-group__title")
+    expect(headings.first).to_be_visible()
+    names = [t.strip() for t in headings.all_inner_texts()]
+    assert names == sorted(names, key=str.lower)
+    screenshot(page, "home")
+    page.fill("#home-search", "no-such-stock-" + uuid.uuid4().hex[:6])
+    expect(page.locator("#home-empty")).to_contain_text("No saved analysis matches")
+    expect(page.locator("#home-count")).to_contain_text("0 analyses")
