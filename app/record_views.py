@@ -31,7 +31,7 @@ __all__ = ["past_analyses", "record_panel", "record_section"]
 
 logger = logging.getLogger("haulcast.app")
 
-SECTION_ID = "board-record"
+SECTION_ID = "record-panel"
 
 
 # ---------------------------------------------------------------------------------------------

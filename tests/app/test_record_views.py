@@ -118,7 +118,7 @@ def test_section_shows_the_track_record_numbers(store, vintages):
     old, new = vintages
     analysis = _publish(store, old)
     section = record_section(store, new, "cod_t")
-    assert section is not None and section.id == "board-record"
+    assert section is not None and section.id == "record-panel"
     text = _text(section)
     # realised 15, 12, 20 against medians 13, 13.5, 14: inside the 80% band in 2016 (15 is the
     # upper end) and 2017, outside in 2018 -> 2 of 3
@@ -128,7 +128,7 @@ def test_section_shows_the_track_record_numbers(store, vintages):
     assert "3 years scored: too few to judge coverage" in text
     assert "2 of 3" in text  # the 80% and 95% cards
     # the table: errors +2.0, -1.5, +6.0; error % +13%, -12%, +30%
-    table = _text(_find(section, "board-record-table"))
+    table = _text(_find(section, "record-panel-table"))
     for cell in ("+2.0", "\u22121.5", "+6.0", "+13%", "\u221212%", "+30%", "inside", "outside"):
         assert cell in table, cell
     # who published and signed it off, and the link that opens it
@@ -139,7 +139,7 @@ def test_section_shows_the_track_record_numbers(store, vintages):
 def test_section_figure_has_the_realised_values_against_the_bands(store, vintages):
     old, new = vintages
     _publish(store, old)
-    graph = _find(record_section(store, new, "cod_t"), "board-record-figure")
+    graph = _find(record_section(store, new, "cod_t"), "record-panel-figure")
     names = [t.name for t in graph.figure.data]
     assert names == [
         "Observed",
@@ -209,7 +209,7 @@ def test_two_past_forecasts_pool_and_are_named(store, vintages):
     _publish(store, old, title="Cod B")
     section = record_section(store, new, "cod_t")
     assert "Of 6 past forecast years, 4 fell inside the 80% band" in _text(section)
-    names = [t.name for t in _find(section, "board-record-figure").figure.data]
+    names = [t.name for t in _find(section, "record-panel-figure").figure.data]
     assert "Cod A: 80% band" in names and "Cod B: median" in names
 
 
@@ -228,7 +228,7 @@ def test_pending_periods_are_listed_in_the_table(store):
     newer = store.save((OLD_CSV + "2016,15,6\n").encode(), "cod_2016.csv")
     _publish(store, old)
     section = record_section(store, newer, "cod_t")
-    table = _text(_find(section, "board-record-table"))
+    table = _text(_find(section, "record-panel-table"))
     assert table.count("not yet realised") == 2
     assert "1 year scored: too few to judge coverage" in _text(section)
 
@@ -237,7 +237,7 @@ def test_panel_without_scored_periods_has_no_figure():
     y = fc.read_table(OLD_CSV.encode(), name="x.csv").series["cod_t"]
     record = fc.score_forecast_record(_forecast(), y)
     panel = record_panel(record, y)
-    assert _find(panel, "board-record-figure") is None
+    assert _find(panel, "record-panel-figure") is None
     assert "The past forecast has no realised year in this data yet." in _text(panel)
 
 
