@@ -31,6 +31,7 @@ import json
 import os
 import re
 import tempfile
+import time
 import unicodedata
 from collections.abc import Iterable
 from dataclasses import asdict, dataclass
@@ -144,6 +145,7 @@ class DatasetStore(AnalysesMixin):
         self.max_bytes = int(max_bytes if max_bytes is not None else fc.MAX_FILE_BYTES)
         self._samples: list[str] = []
         self.db = Database(self.data_dir)
+        _remove_stale_temporaries(self.root)
         # Datasets are immutable, so a per-store memo is safe to share between sessions.
         self._load = functools.lru_cache(maxsize=32)(self._load_uncached)
 
@@ -355,6 +357,27 @@ class DatasetStore(AnalysesMixin):
 
 def _not_found(dataset_id: str) -> str:
     return f"dataset {dataset_id[:12]} was not found on this server. Upload the file again."
+
+
+#: A temporary dataset folder older than this (seconds) belongs to a save that died.
+STALE_TEMPORARY_S = 3600.0
+
+
+def _remove_stale_temporaries(root: Path) -> None:
+    """Remove ``.tmp-*`` folders of saves killed before their rename (older than an hour).
+
+    Younger ones may belong to a save running in another process right now, so they stay.
+    """
+    cutoff = time.time() - STALE_TEMPORARY_S
+    for tmp in root.glob(".tmp-*"):
+        try:
+            if not tmp.is_dir() or tmp.stat().st_mtime > cutoff:
+                continue
+            for p in tmp.iterdir():
+                p.unlink()
+            tmp.rmdir()
+        except OSError:  # another process removed it first, or it is not ours to remove
+            continue
 
 
 def _fsync_dir(path: Path) -> None:

@@ -324,3 +324,17 @@ def test_a_row_always_has_its_bytes_even_if_a_save_died_before_its_row(tmp_path)
     assert store.save(CSV, "cod.csv") == digest
     assert store.raw(digest) == CSV
     store.close()
+
+
+def test_temporary_folders_of_dead_saves_are_removed_once_stale(tmp_path):
+    root = tmp_path / "datasets"
+    root.mkdir()
+    stale, fresh = root / ".tmp-dead", root / ".tmp-running"
+    for folder in (stale, fresh):
+        folder.mkdir()
+        (folder / "raw").write_bytes(CSV)
+    two_hours_ago = time.time() - 7200
+    os.utime(stale, (two_hours_ago, two_hours_ago))
+    DatasetStore(tmp_path).close()
+    assert not stale.exists()
+    assert (fresh / "raw").read_bytes() == CSV  # may be another process's save in progress
