@@ -187,9 +187,14 @@ def _rows(record: fc.ForecastRecord) -> list[dict[str, Any]]:
         return f"{v:+,.{decimals}f}".replace("-", "\u2212") if math.isfinite(v) else ""
 
     out = []
+    previous = None
     for r in frame.to_dict("records"):
+        first_of_forecast = r["forecast"] != previous
+        previous = r["forecast"]
         row: dict[str, Any] = {
-            "forecast": r["forecast"],
+            # the forecast's name on its first row only (the rows that follow are its periods)
+            "forecast": r["forecast"] if first_of_forecast else "",
+            "_class": "record-first" if first_of_forecast and out else None,
             "time": r["time"],
             "median": num(r["median"]),
         }
@@ -207,7 +212,7 @@ def _rows(record: fc.ForecastRecord) -> list[dict[str, Any]]:
         else:
             note = "not yet realised" if r["status"] == "pending" else "no value in this data"
             row["actual"] = html.Span(note, className="hc-muted")
-            row["_class"] = "record-unscored"
+            row["_class"] = " ".join(c for c in (row["_class"], "record-unscored") if c)
         out.append(row)
     return out
 
@@ -302,7 +307,9 @@ def record_panel(
                 className="record-figure",
             )
         )
-    columns = [("forecast", "Past forecast"), ("time", "Period"), ("actual", "Realised")]
+    # one past forecast: its name is in the list below the table, not on every row
+    columns = [] if len(record.forecasts) == 1 else [("forecast", "Past forecast")]
+    columns += [("time", "Period"), ("actual", "Realised")]
     columns += [("median", "Median forecast")]
     columns += [(f"in{lv}", f"{lv}% band") for lv in record.levels]
     columns += [("error", "Error"), ("pct", "Error %")]
