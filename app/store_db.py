@@ -249,16 +249,27 @@ class Database:
 
     @contextmanager
     def write(self) -> Iterator[sqlite3.Connection]:
-        """One write transaction: ``BEGIN IMMEDIATE`` ... ``COMMIT``, rolled back on any error."""
+        """One write transaction: ``BEGIN IMMEDIATE`` ... ``COMMIT``, rolled back on any error.
+
+        Raises
+        ------
+        forecasting_core.InputError
+            When the database stayed locked by another writer for ``BUSY_TIMEOUT_MS`` or the
+            disk is full (nothing was written; the message says to try again).
+        """
         conn = self.conn()
-        conn.execute("BEGIN IMMEDIATE")
+        _plainly(conn.execute, "BEGIN IMMEDIATE")
         try:
             yield conn
         except BaseException:
             if conn.in_transaction:
                 conn.execute("ROLLBACK")
             raise
-        conn.execute("COMMIT")
+        try:
+            _plainly(conn.execute, "COMMIT")
+        finally:
+            if conn.in_transaction:  # COMMIT failed: nothing of this transaction is kept
+                conn.execute("ROLLBACK")
 
     @contextmanager
     def read(self) -> Iterator[sqlite3.Connection]:
@@ -306,6 +317,25 @@ class Database:
         """``PRAGMA integrity_check`` ("ok" when the file is sound)."""
         rows = self.conn().execute("PRAGMA integrity_check").fetchall()
         return "; ".join(str(r[0]) for r in rows)
+
+
+def _plainly(execute: Callable[[str], object], sql: str) -> None:
+    """Run ``sql``; a locked database or a full disk becomes a plain InputError."""
+    try:
+        execute(sql)
+    except sqlite3.OperationalError as err:
+        text = str(err).lower()
+        if "locked" in text or "busy" in text:
+            raise fc.InputError(
+                "the store is busy with another save that is taking unusually long. Nothing was "
+                "saved; try again in a moment."
+            ) from err
+        if "full" in text:
+            raise fc.InputError(
+                "the data folder's disk is full. Nothing was saved; ask the administrator to "
+                "free some space."
+            ) from err
+        raise
 
 
 def _current_version(conn: sqlite3.Connection) -> int:

@@ -7,6 +7,8 @@ import json
 import sqlite3
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import forecasting_core as fc
 from app.store import DB_NAME, Analysis, DatasetStore, SignOff
@@ -399,3 +401,45 @@ def test_bad_sign_offs_are_refused(store, draft, kwargs, message):
     with pytest.raises(fc.InputError, match=message):
         store.add_signoff(draft.id, **{"note": "", **kwargs})
     assert store.get_analysis(draft.id).signoffs == ()
+
+
+_JSON_VALUES = st.recursive(
+    st.none()
+    | st.booleans()
+    | st.integers(min_value=-(2**63), max_value=2**63)
+    | st.floats(allow_nan=False, allow_infinity=False)
+    | st.text(max_size=20),
+    lambda inner: (
+        st.lists(inner, max_size=4) | st.dictionaries(st.text(max_size=8), inner, max_size=4)
+    ),
+    max_leaves=20,
+)
+
+
+@settings(max_examples=25, deadline=None)
+@given(payload=st.dictionaries(st.text(max_size=12), _JSON_VALUES, max_size=6))
+def test_any_json_settings_come_back_equal(store, dataset_id, payload):
+    # reference: Python's json module (json.loads(json.dumps(x)) == x for finite JSON values)
+    saved = _save(store, dataset_id, settings=payload, forecast={"rows": [payload]})
+    again = store.get_analysis(saved.id)
+    assert again.settings == payload == json.loads(json.dumps(payload))
+    assert again.forecast == {"rows": [payload]}
+
+
+def test_a_store_locked_too_long_by_another_writer_says_so_plainly(tmp_path, monkeypatch):
+    import app.store_db
+
+    monkeypatch.setattr(app.store_db, "BUSY_TIMEOUT_MS", 50)
+    store = DatasetStore(tmp_path)
+    dataset_id = store.save(CSV, "cod.csv")
+    other = sqlite3.connect(tmp_path / DB_NAME, isolation_level=None)
+    other.execute("BEGIN IMMEDIATE")  # another process holding the write lock
+    try:
+        with pytest.raises(fc.InputError, match="the store is busy .* Nothing was saved"):
+            _save(store, dataset_id)
+    finally:
+        other.execute("ROLLBACK")
+        other.close()
+    assert _save(store, dataset_id).version == 1  # and it works again once the lock is gone
+    assert len(store.list_analyses()) == 1
+    store.close()
