@@ -79,6 +79,8 @@ class DatasetMeta:
         ISO 8601 UTC time of the first save.
     sample : bool
         One of the demo datasets every visitor sees.
+    saved_by : str or None
+        Who uploaded it, when known.
     """
 
     id: str
@@ -87,6 +89,7 @@ class DatasetMeta:
     size: int
     saved_at: str
     sample: bool = False
+    saved_by: str | None = None
 
     def to_dict(self) -> dict[str, object]:
         return asdict(self)
@@ -177,6 +180,7 @@ class DatasetStore(AnalysesMixin):
             )
         digest = sha256(raw).hexdigest()
         clean = sanitise_filename(filename)
+        saved_by = check_text(author, "author", required=False) or None
         if not self.exists(digest):
             meta = DatasetMeta(
                 id=digest,
@@ -185,6 +189,7 @@ class DatasetStore(AnalysesMixin):
                 size=len(raw),
                 saved_at=now_utc(),
                 sample=sample,
+                saved_by=saved_by,
             )
             self._write_folder(digest, bytes(raw), meta)
             with self.db.write() as tx:
@@ -199,7 +204,7 @@ class DatasetStore(AnalysesMixin):
                         meta.kind,
                         meta.size,
                         meta.saved_at,
-                        check_text(author, "author", required=False) or None,
+                        saved_by,
                         int(sample),
                     ),
                 )
@@ -266,7 +271,7 @@ class DatasetStore(AnalysesMixin):
         row = self._row(dataset_id)
         if row is None:
             raise fc.InputError(_not_found(dataset_id))
-        filename, kind, size, saved_at, _saved_by = row
+        filename, kind, size, saved_at, saved_by = row
         return DatasetMeta(
             id=dataset_id,
             filename=filename,
@@ -274,6 +279,7 @@ class DatasetStore(AnalysesMixin):
             size=int(size),
             saved_at=saved_at,
             sample=dataset_id in self._samples,
+            saved_by=saved_by,
         )
 
     def raw(self, dataset_id: str) -> bytes:

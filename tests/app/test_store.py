@@ -50,6 +50,14 @@ def test_raw_bytes_and_metadata_are_kept(store, tmp_path):
     assert store.raw(dataset_id) == CSV
 
 
+def test_who_uploaded_is_kept_when_known(store):
+    assert store.meta(store.save(CSV, "cod.csv", author=" Ana Ruiz ")).saved_by == "Ana Ruiz"
+    other = store.save(CSV + b"2020,1\n", "cod2.csv")
+    assert store.meta(other).saved_by is None
+    with pytest.raises(fc.InputError, match="author must be at most 80 characters"):
+        store.save(CSV + b"2021,1\n", "cod3.csv", author="x" * 81)
+
+
 @pytest.mark.parametrize(
     ("given", "kept"),
     [
