@@ -87,7 +87,7 @@ def status_panel(
         ]
     href = saved.open_href(analysis)
     meta: list[Any] = [
-        f"{analysis.series}, season {analysis.season} \u00b7 saved by {analysis.author} ",
+        f"{analysis.series}, season {analysis.season} \u00b7 saved by {analysis.author} on ",
         _when(analysis.created_at),
     ]
     if analysis.published_at:

@@ -33,6 +33,7 @@ import forecasting_core as fc
 from app import board_saved, export, figures, saved, saved_views, tables, wording
 from app.analysis import LEVELS, board_state, changed_selection, comparison_key, parse_reference
 from app.cache import cache, get_comparison
+from app.record_views import record_section
 from app.state import SELECTION_ID
 from app.ui import alert, caution_box, fmt_number, guarded, html_table, page_header, section
 
@@ -195,13 +196,11 @@ def _opened(analysis: str | None) -> tuple[dict[str, Any] | None, Any]:
 
 
 def _record(sel: Mapping[str, Any]) -> Any:
-    """The forecast record panel (past published forecasts of this series), when available."""
-    try:
-        from app.record_views import record_section
-    except ImportError:
-        return None
+    """The forecast record panel (past published forecasts of this series), when there are any."""
     from app.store import get_store
 
+    if not sel.get("dataset_id") or not sel.get("series"):
+        return None
     return record_section(get_store(), sel["dataset_id"], sel["series"])
 
 
@@ -295,8 +294,8 @@ def layout(present: str | None = None, analysis: str | None = None, **_query: An
                 delay_show=150,
                 overlay_style={"visibility": "visible", "opacity": 0.35},
             ),
-            saved_views.saved_section(opened),
             html.Div(id="board-record"),
+            saved_views.saved_section(opened),
             section(
                 "Export",
                 html.Div(
@@ -521,15 +520,15 @@ def _export_analysis(state: Mapping[str, Any]) -> dict[str, Any] | None:
     return None if analysis is None or changed else analysis.to_dict()
 
 
+# The record depends on the dataset and the series only (not on the model or the reference level).
 @callback(
     Output("board-record", "children"),
-    Input("board-table", "children"),
+    Input("board-mount", "data"),
+    Input(saved_views.OPEN_ID, "data"),
     State(SELECTION_ID, "data"),
-    State(saved_views.OPEN_ID, "data"),
-    prevent_initial_call=True,
 )
 @guarded("showing the forecast record", outputs=1)
-def show_record(_table: Any, data: Mapping[str, Any] | None, opened: Mapping[str, Any] | None) -> Any:
+def show_record(_mount: Any, opened: Mapping[str, Any] | None, data: Mapping[str, Any] | None) -> Any:
     from app.state import resolve_selection
 
     return _record(resolve_selection(saved.overlay(data, opened)))

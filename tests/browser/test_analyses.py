@@ -193,13 +193,18 @@ def test_saving_needs_a_name_and_the_name_is_remembered_in_this_browser(
     expect(other.locator("#board-signoff-name")).to_have_value("Cleo Coder")
 
 
-def test_a_broken_analysis_link_says_so_and_shows_the_board(page, open_page, settle):
+def test_a_broken_analysis_link_says_so_and_shows_the_board_with_its_record(
+    page, open_page, settle, screenshot
+):
     open_page(page, "/board?analysis=" + "0" * 32, settle=False)
     _wait_board(page, settle)
     expect(page.locator("[role=alert]", has_text="cannot be opened")).to_contain_text(
         "was not found"
     )
     expect(page.locator("#board-saved-none")).to_be_visible()
+    # below the forecast: how the demo's earlier published forecasts of this stock did
+    expect(page.locator("#board-record #record-panel")).to_contain_text("How past forecasts did")
+    screenshot(page, "board-demo-record")
 
 
 def test_home_page_groups_by_stock_and_says_when_nothing_matches(page, open_page, screenshot):
