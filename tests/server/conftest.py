@@ -132,12 +132,12 @@ def start_server(
     ]
     if not samples:
         args.append("--no-samples")
+    before = len(re.findall(r"Worker \d+ serving", log.read_text())) if log.exists() else 0
     with log.open("ab") as out:
         proc = subprocess.Popen(
             args, cwd=ROOT, env=env, stdout=out, stderr=subprocess.STDOUT, start_new_session=True
         )
     server = Server(proc, port, data_dir, log, key)
-    before = 0
     deadline = time.monotonic() + START_TIMEOUT_S
     while time.monotonic() < deadline:
         if proc.poll() is not None:

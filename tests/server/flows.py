@@ -12,7 +12,7 @@ from collections.abc import Mapping
 from typing import Any
 
 import numpy as np
-from dash_client import DashClient, Reply, upload_contents, walk_strings
+from dash_client import DashClient, Reply, upload_contents
 
 #: Small Model Bench settings: enough to exercise the whole path, cheap on a loaded machine.
 BENCH = {
@@ -42,6 +42,19 @@ def canary_csv(name: str, seed: int, years: int = 24) -> bytes:
     return ("year," + name + "\n" + "\n".join(rows) + "\n").encode("utf-8")
 
 
+def text_of(node: Any) -> str:
+    """The visible text of a component tree (its ``children`` strings, in order)."""
+    if isinstance(node, str | int | float):
+        return str(node)
+    if isinstance(node, list):
+        return "".join(text_of(n) for n in node)
+    if isinstance(node, Mapping):
+        props = node.get("props")
+        if isinstance(props, Mapping):
+            return text_of(props.get("children"))
+    return ""
+
+
 def error_texts(response: Mapping[str, Any]) -> list[str]:
     """Texts of every error alert (``hc-alert--error``) inside a callback answer."""
     out: list[str] = []
@@ -50,7 +63,7 @@ def error_texts(response: Mapping[str, Any]) -> list[str]:
         if isinstance(node, Mapping):
             props = node.get("props")
             if isinstance(props, Mapping) and "hc-alert--error" in str(props.get("className", "")):
-                out.append(" ".join(walk_strings(props.get("children"))))
+                out.append(text_of(props.get("children")))
                 return
             for v in node.values():
                 visit(v)
