@@ -92,8 +92,12 @@ def past_analyses(store: Any, dataset_id: str, series: str, y: pd.Series) -> lis
     if not len(observed):
         return []
     last = observed.index.max()
+    try:
+        published = store.list_analyses(status="published", series=series)
+    except fc.InputError:  # a name the store could never have saved (e.g. too long)
+        return []
     found = []
-    for a in _in_force(store.list_analyses(status="published", series=series)):
+    for a in _in_force(published):
         if a.dataset_id == dataset_id:
             continue
         if not isinstance(a.forecast, dict) or a.forecast.get("frequency") != frequency:

@@ -184,6 +184,7 @@ def test_other_series_and_unknown_inputs_give_none(store, vintages):
     assert record_section(store, new, "no_such_series") is None
     assert record_section(store, "0" * 64, "cod_t") is None
     assert record_section(store, "not-an-id", "cod_t") is None
+    assert past_analyses(store, new, "x" * 300, store.load_table(new).series["cod_t"]) == []
 
 
 def test_another_frequency_is_left_out(store, vintages):

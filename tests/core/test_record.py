@@ -16,6 +16,8 @@ import math
 import numpy as np
 import pandas as pd
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import forecasting_core as fc
 
@@ -354,3 +356,26 @@ def test_summary_lists_pending_periods():
     text = fc.score_forecast_record(WORKED, annual(2011, [*HISTORY, 15.0])).summary()
     assert "not yet realised: 2017, 2018" in text
     assert text.splitlines()[0] == "Forecast record of hake_t (data to 2016)"
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    medians=st.lists(st.floats(1.0, 1e4), min_size=1, max_size=6),
+    widths=st.tuples(st.floats(0.0, 50.0), st.floats(0.0, 50.0), st.floats(0.0, 50.0)),
+    realised=st.lists(st.floats(0.5, 2e4), min_size=6, max_size=6),
+)
+def test_nested_bands_give_nested_counts_and_errors_add_up(medians, widths, realised):
+    # bands widen with the level (50 inside 80 inside 95), so the inside counts can only grow
+    w50, w80, w95 = sorted(widths)
+    rows = [
+        (str(2016 + i), m, {50: (m - w50, m + w50), 80: (m - w80, m + w80), 95: (m - w95, m + w95)})
+        for i, m in enumerate(medians)
+    ]
+    newer = annual(2011, [*HISTORY, *realised])
+    record = fc.score_forecast_record(past_forecast(rows), newer)
+    assert record.inside[50] <= record.inside[80] <= record.inside[95] <= record.periods_scored
+    t = record.to_frame()
+    assert t["error"].to_numpy() == pytest.approx(np.asarray(realised[: len(medians)]) - medians)
+    # exact realisation of the medians: zero error everywhere
+    exact = fc.score_forecast_record(past_forecast(rows), annual(2011, [*HISTORY, *medians]))
+    assert (exact.to_frame()["error"] == 0).all() and exact.mase == 0.0
