@@ -338,3 +338,54 @@ def test_temporary_folders_of_dead_saves_are_removed_once_stale(tmp_path):
     DatasetStore(tmp_path).close()
     assert not stale.exists()
     assert (fresh / "raw").read_bytes() == CSV  # may be another process's save in progress
+
+
+def _save_with_inherited(store: DatasetStore, dataset_id: str, fd: int) -> None:
+    out = os.fdopen(fd, "w", buffering=1)
+    for i in range(10):
+        a = store.save_analysis(
+            dataset_id=dataset_id,
+            series="cod_t",
+            settings={"tag": "child", "i": i, "rows": 5},
+            model="m",
+            forecast=_forecast("child", i),
+            author="writer child",
+        )
+        print(a.id, file=out, flush=True)
+    out.close()
+
+
+def test_a_store_object_inherited_through_fork_opens_its_own_connection(tmp_path):
+    # a pre-forking server may build the store before forking: the child must not reuse the
+    # parent's SQLite connection (SQLite docs, "How To Corrupt An SQLite Database File")
+    store = DatasetStore(tmp_path)
+    dataset_id = store.save(CSV, "cod.csv")
+    parent_conn = store.db.conn()
+    read_fd, write_fd = os.pipe()
+    proc = multiprocessing.get_context("fork").Process(
+        target=_save_with_inherited, args=(store, dataset_id, write_fd)
+    )
+    proc.start()
+    os.close(write_fd)
+    mine = [
+        store.save_analysis(
+            dataset_id=dataset_id,
+            series="cod_t",
+            settings={"tag": "parent", "i": i, "rows": 5},
+            model="m",
+            forecast=_forecast("parent", i),
+            author="writer parent",
+        ).id
+        for i in range(10)
+    ]
+    with os.fdopen(read_fd) as pipe:
+        theirs = pipe.read().split()
+    proc.join(30)
+    assert proc.exitcode == 0
+    assert store.db.conn() is parent_conn
+    listed = {a.id: a for a in store.list_analyses()}
+    assert set(listed) == set(mine) | set(theirs) and len(listed) == 20
+    for a in listed.values():
+        _check_complete(store, a)
+    assert store.integrity_check() == "ok"
+    store.close()
