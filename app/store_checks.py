@@ -43,6 +43,13 @@ LIMITS = {
     "note": 2000,
     "query": 200,
 }
+_EMPTY_HINTS = {
+    "author": "Enter your name.",
+    "name": "Enter your name.",
+    "role": "Enter a role, e.g. stock lead.",
+    "series": "Choose a series.",
+    "model": "Choose a model.",
+}
 #: Largest accepted JSON per field, in bytes of UTF-8 text.
 JSON_LIMITS = {"settings": 64 * 1024, "forecast": 2 * 1024 * 1024}
 #: Fields ``revise`` may change.
@@ -67,13 +74,16 @@ def check_text(value: object, what: str, *, required: bool = True) -> str:
         return ""
     if not isinstance(value, str):
         raise fc.InputError(f"{what} must be text. Got {type(value).__name__} instead.")
-    text = value.strip()
-    if what != "note" and ("\n" in text or "\t" in text):
-        text = " ".join(text.split())
+    if what == "series":
+        text = value  # a series name must match the dataset's exactly
+    else:
+        text = value.strip()
+        if what != "note" and ("\n" in text or "\t" in text):
+            text = " ".join(text.split())
     if _CONTROL.search(text):
         raise fc.InputError(f"{what} must not contain control characters. Remove them and retry.")
-    if required and not text:
-        raise fc.InputError(f"{what} must not be empty. Enter a {what}.")
+    if required and not text.strip():
+        raise fc.InputError(f"{what} must not be empty. {_EMPTY_HINTS.get(what, 'Enter it.')}")
     limit = LIMITS[what]
     if len(text) > limit:
         raise fc.InputError(

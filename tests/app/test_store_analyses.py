@@ -319,7 +319,8 @@ def test_listed_analyses_carry_their_sign_offs(listing):
 @pytest.mark.parametrize(
     ("over", "message"),
     [
-        ({"author": ""}, "author must not be empty"),
+        ({"author": ""}, "author must not be empty. Enter your name"),
+        ({"series": "cod_t "}, "series 'cod_t ' is not in dataset"),  # names match exactly
         ({"author": "   "}, "author must not be empty"),
         ({"author": "x" * 81}, "author must be at most 80 characters. Got 81 characters instead"),
         ({"author": 5}, "author must be text. Got int instead"),
