@@ -64,6 +64,12 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument(
         "--threads", type=int, default=8, help="request threads per process (default 8)"
     )
+    parser.add_argument(
+        "--secure-cookie",
+        action="store_true",
+        help="mark the access cookie Secure (browsers send it over HTTPS only): set this "
+        "behind a TLS reverse proxy",
+    )
     parser.add_argument("--no-samples", action="store_true", help="do not load the demo datasets")
     return parser
 
@@ -126,6 +132,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         "LOAD_SAMPLES": not args.no_samples,
         "DATA_DIR": str(data_dir),
         "ACCESS_KEY": key,
+        "ACCESS_COOKIE_SECURE": bool(args.secure_cookie),
     }
     if args.redis_url:
         config["CACHE_REDIS_URL"] = args.redis_url

@@ -114,3 +114,8 @@ def test_without_fork_several_workers_fall_back_to_one_with_a_note(
     assert server_main.main(_args(tmp_path, "--workers", "3")) == 0
     assert "serving with 1 process" in capsys.readouterr().err
     assert "worker processes" not in captured["banner"]
+
+
+def test_secure_cookie_is_passed_to_the_app(captured, tmp_path):
+    assert server_main.main(_args(tmp_path, "--secure-cookie")) == 0
+    assert captured["config"]["ACCESS_COOKIE_SECURE"] is True
