@@ -161,14 +161,18 @@ def show_saved(
             hint,
             "e.g. Hake 2026 advice",
         ]
-    differences = [] if changed else saved.forecast_differences(analysis.forecast, fdict)
+    # exact first; a difference in the last floating-point digits only is said so
+    exact = not changed and not saved.forecast_differences(analysis.forecast, fdict, rel=0.0)
+    differences = [] if changed or exact else saved.forecast_differences(analysis.forecast, fdict)
     history = getattr(store, "history", None)
     newer = (
         saved.newest_version(analysis, history(analysis.id))
         if history is not None
         else saved.newest_in_chain(analysis, store.list_analyses(series=analysis.series))
     )
-    panel = status_panel(analysis, changed, differences, newer, request.host_url.rstrip("/"))
+    panel = status_panel(
+        analysis, changed, differences, newer, request.host_url.rstrip("/"), exact=exact
+    )
     publish = SHOW if analysis.status == "draft" and not changed else HIDE
     signoff = SHOW if analysis.status == "published" and not changed else HIDE
     label = f"Save as version {analysis.version + 1}" if changed else "Save analysis"

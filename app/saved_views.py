@@ -75,8 +75,14 @@ def status_panel(
     differences: list[str],
     newer: Any | None,
     base_url: str = "",
+    *,
+    exact: bool = True,
 ) -> list[Any]:
-    """What the board says about the saved analysis it is looking at."""
+    """What the board says about the saved analysis it is looking at.
+
+    ``differences`` lists where the recomputed forecast differs from the saved one beyond the
+    last floating-point digits; ``exact`` is False when they agree only to those digits.
+    """
     if analysis is None:
         return [
             html.P(
@@ -175,7 +181,8 @@ def status_panel(
             html.Div(
                 alert(
                     "Recomputed from the dataset and the saved settings: the same numbers as "
-                    f"saved on {saved.fmt_time(analysis.created_at)}.",
+                    f"saved on {saved.fmt_time(analysis.created_at)}"
+                    + ("." if exact else " (to the last few floating-point digits)."),
                     "ok",
                     title="Same numbers",
                 ),

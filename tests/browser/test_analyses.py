@@ -84,7 +84,8 @@ def test_two_browsers_save_publish_reopen_sign_off_and_revise(
     # the stored forecast is the one recomputed from the dataset and the settings
     first = store.get_analysis(v1)
     assert first.season == "1971" and first.author == "Ana Analyst"
-    assert saved.forecast_differences(first.forecast, _recomputed(store, first).to_dict()) == []
+    recomputed = _recomputed(store, first).to_dict()
+    assert saved.forecast_differences(first.forecast, recomputed, rel=0.0) == []
 
     # B, another browser, finds it on the home page by a word of its title
     ben = new_page()
@@ -104,6 +105,7 @@ def test_two_browsers_save_publish_reopen_sign_off_and_revise(
     assert _table(ben) == saved_rows
     expect(ben.locator("#hc-context-dataset")).to_have_text(f"nile_{token}.csv")
     expect(ben.locator("#board-saved-check")).to_contain_text("the same numbers as saved")
+    expect(ben.locator("#board-saved-check")).not_to_contain_text("floating-point")  # exactly
     expect(ben.locator("#board-save")).to_have_text("Save analysis")
 
     # B signs off
@@ -131,6 +133,14 @@ def test_two_browsers_save_publish_reopen_sign_off_and_revise(
     for caution in fc.CAUTIONS:
         assert caution.replace('"', "'") in text
     assert len(pd.read_csv(io.StringIO(text), comment="#")) == len(saved_rows)
+    with ben.expect_download() as info:
+        ben.click("#board-download-html")
+    report = open(info.value.path(), encoding="utf-8").read()
+    assert (
+        "<h2>Sign-offs</h2>" in report and "<strong>Ben Manager</strong> (Stock manager)" in report
+    )
+    for caution in fc.CAUTIONS:
+        assert caution in report
 
     # A sees the sign-off on reopening the link
     ana.reload()
