@@ -139,6 +139,12 @@ class _ProcessEngine:
 
     def __init__(self, workers: int) -> None:
         self.slots = workers
+        try:  # compiled code loaded (or compiled once) here: forked workers inherit it
+            from forecasting_core._fastarma import warm_up
+
+            warm_up()
+        except Exception:  # a task that needs it reports the failure itself
+            pass
         self._pool = ProcessPoolExecutor(max_workers=workers)
 
     def submit(self, name: str, y: pd.Series, horizon: int, options: dict[str, Any]) -> Future:

@@ -45,6 +45,34 @@ def _address_of(scheduler: Any) -> str:
     )
 
 
+def _reachable(address: str) -> None:
+    """Fail fast, with a plain message, on a malformed address or a closed TCP port.
+
+    (A Client that cannot connect waits for its whole timeout and then again when it is
+    garbage-collected; a plain socket answers at once.)
+    """
+    import socket
+
+    from distributed.comm.addressing import get_address_host_port, parse_address
+
+    hint = "Check the address, or start a scheduler with: dask scheduler"
+    try:
+        scheme = parse_address(address)[0]
+        host, port = get_address_host_port(address) if scheme in ("tcp", "tls") else (None, None)
+    except ValueError as exc:
+        raise InputError(
+            f"scheduler must be an address such as tcp://host:8786. Got {address!r} instead ({exc})."
+        ) from None
+    if host is None:
+        return
+    try:
+        socket.create_connection((host, port), timeout=CONNECT_TIMEOUT).close()
+    except OSError as exc:
+        raise InputError(
+            f"could not reach the Dask scheduler at {address} ({type(exc).__name__}: {exc}). {hint}"
+        ) from None
+
+
 def _check_workers(client: Any, address: str) -> int:
     """Number of worker threads; InputError when no worker joins or one runs another haulcast."""
     from forecasting_core._batch_records import package_versions
@@ -85,6 +113,7 @@ class DaskEngine:
             address = str(scheduler.scheduler.address if scheduler.scheduler else scheduler)
         else:
             address = _address_of(scheduler)
+            _reachable(address)
             try:
                 self._client = distributed.Client(
                     address, timeout=CONNECT_TIMEOUT, set_as_default=False

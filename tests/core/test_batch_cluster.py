@@ -149,3 +149,18 @@ def test_missing_dask_exits_2_and_names_the_extra(five_series, capsys, monkeypat
     err = capsys.readouterr().err
     assert code == 2
     assert "pip install 'haulcast[cluster]'" in err and "Traceback" not in err
+
+
+@pytest.mark.parametrize(
+    ("address", "match"),
+    [
+        ("nonsense", "scheduler must be an address such as tcp://host:8786. Got 'nonsense' instead"),
+        ("tcp://host-without-port", "Got 'tcp://host-without-port' instead"),
+        ("   ", "scheduler must be a Dask scheduler address such as tcp://host:8786"),
+    ],
+)
+def test_malformed_scheduler_address_says_what_is_expected(five_series, address, match):
+    from forecasting_core._results import InputError
+
+    with pytest.raises(InputError, match=match):
+        run_batch(five_series, 2, scheduler=address, **FORCED)
