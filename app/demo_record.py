@@ -150,9 +150,20 @@ def seed_demo_record(
     Returns
     -------
     list of app.store.Analysis
-        The analyses this call published (empty when all were there already, or when the
-        work went to a background thread).
+        The analyses this call published (empty when all were there already, when the work
+        went to a background thread, or when seeding failed: that is logged, and the server
+        starts without the demo record rather than not at all).
     """
+    try:
+        return _seed_demo_record(store, sample_dir, background=background)
+    except Exception:  # noqa: BLE001 - a demo must never keep the server from starting
+        logger.exception("Could not seed the demo forecast record")
+        return []
+
+
+def _seed_demo_record(
+    store: Any, sample_dir: str | os.PathLike[str], *, background: bool
+) -> list[Any]:
     folder = Path(sample_dir)
     vintage = folder / VINTAGE_FILE
     if not vintage.is_file() or not hasattr(store, "save_analysis"):

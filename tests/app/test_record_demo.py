@@ -181,3 +181,17 @@ def test_create_app_seeds_the_demo_record(tmp_path):
     assert len(_demo(store)) == 4
     bare = create_app({"DATA_DIR": str(tmp_path / "bare"), "LOAD_SAMPLES": False})
     assert _demo(bare.server.extensions["haulcast"]["store"]) == []
+
+
+def test_a_failing_store_does_not_stop_the_start(store, caplog):
+    class Broken:
+        data_dir = store.data_dir
+
+        def save(self, *args, **kwargs):
+            raise OSError("disk full")
+
+        def save_analysis(self, **kwargs):  # pragma: no cover - never reached
+            raise AssertionError
+
+    assert demo.seed_demo_record(Broken(), SAMPLES) == []
+    assert "Could not seed the demo forecast record" in caplog.text
