@@ -15,7 +15,7 @@ from pathlib import Path
 import pytest
 from conftest import start_server
 from dash_client import DashClient, find_components
-from flows import FlowError, Session, canary_csv, error_texts, text_of
+from flows import Session, canary_csv, error_texts, text_of
 
 pytestmark = pytest.mark.server
 
@@ -74,9 +74,9 @@ def test_every_confirmed_save_survives_a_sigkill_mid_save(tmp_path, record_prope
             while not stop.is_set():
                 try:
                     analysis_id = session.save(f"kill {n}-{i}")
-                except (OSError, FlowError, ValueError) as err:  # the server died under us
+                except Exception as err:  # noqa: BLE001 - the server died under us (checked below)
                     with lock:
-                        failed_in_flight.append(type(err).__name__)
+                        failed_in_flight.append((time.monotonic(), f"{type(err).__name__}: {err}"))
                     return
                 with lock:
                     confirmed.append(analysis_id)
@@ -88,6 +88,7 @@ def test_every_confirmed_save_survives_a_sigkill_mid_save(tmp_path, record_prope
         deadline = time.monotonic() + KILL_AFTER_S
         while time.monotonic() < deadline and len(confirmed) < KILL_AFTER_SAVES:
             time.sleep(0.05)
+        killed_at = time.monotonic()
         server.kill()  # SIGKILL to the parent and both workers, saves in flight
         stop.set()
         for t in threads:
@@ -96,6 +97,8 @@ def test_every_confirmed_save_survives_a_sigkill_mid_save(tmp_path, record_prope
         stop.set()
         server.stop()
     assert len(confirmed) >= 5, "too few saves before the kill to mean anything"
+    early = [why for at, why in failed_in_flight if at < killed_at]
+    assert not early, f"saves failed before the kill: {early[:3]}"
 
     restarted = start_server(data, log_name="second.log")
     try:

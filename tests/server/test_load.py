@@ -19,7 +19,7 @@ pytestmark = pytest.mark.server
 
 SESSIONS = 20
 #: Seconds of load (``HAULCAST_LOAD_SECONDS`` to change it); every session finishes its cycle.
-LOAD_SECONDS = float(os.environ.get("HAULCAST_LOAD_SECONDS", "30"))
+LOAD_SECONDS = float(os.environ.get("HAULCAST_LOAD_SECONDS", "25"))
 CANARY = re.compile(r"cnS\d\dI\d{3}")
 
 
