@@ -10,7 +10,7 @@ never imports dash, flask or plotly.
 >>> forecast = fc.make_forecast(comparison.best, horizon=5)    # doctest: +SKIP
 """
 
-from forecasting_core._batch import run_batch
+from forecasting_core._batch import iter_batch, run_batch
 from forecasting_core._benchmarks import fit_benchmarks
 from forecasting_core._diagnostics import check_residuals
 from forecasting_core._fastarma import warm_up
@@ -84,6 +84,7 @@ __all__ = [
     "fit_model",
     "frequency_of",
     "guerrero_lambda",
+    "iter_batch",
     "make_forecast",
     "mean_back_transform",
     "read_table",
