@@ -300,6 +300,26 @@ class ForecastRecord:
             columns=["level", "nominal", "scored", "inside", "coverage"],
         )
 
+    def step_frame(self) -> pd.DataFrame:
+        """Per step ahead (1 = the first forecast period): scored, inside{L} per level, mase.
+
+        Bands and errors usually grow with the step, so the first steps of past forecasts
+        say most about next season's forecast.
+        """
+        frame = self.to_frame()
+        columns = ["step", "scored", *[f"inside{lv}" for lv in self.levels], "mase"]
+        if not len(frame):
+            return pd.DataFrame(columns=columns)
+        rows = []
+        for step, part in frame[frame["status"] == "scored"].groupby("step", sort=True):
+            row: dict[str, Any] = {"step": int(step), "scored": len(part)}
+            for lv in self.levels:
+                col = f"inside{lv}"
+                row[col] = int(part[col].dropna().astype(bool).sum()) if col in part else 0
+            row["mase"] = _mean_finite(part["scaled_error"])
+            rows.append(row)
+        return pd.DataFrame(rows, columns=columns)
+
     def headline(self) -> str:
         """The sentence a manager reads first, e.g. "Of 15 past forecast years, 12 fell inside
         the 80% band (80% expected) ..."."""
@@ -351,6 +371,7 @@ class ForecastRecord:
                     for lv in self.levels
                 },
                 "mase": self.mase,
+                "by_step": self.step_frame().to_dict("records"),
                 "pending": list(self.pending),
                 "missing": list(self.missing),
                 "headline": self.headline(),

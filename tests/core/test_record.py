@@ -304,6 +304,7 @@ def test_to_dict_is_strict_json():
     period = back["forecasts"][0]["periods"][1]
     assert period["status"] == "missing" and period["inside"]["80"] is None
     assert back["forecasts"][0]["periods"][0]["bands"]["80"] == [11.0, 15.0]
+    assert [r["step"] for r in back["by_step"]] == [1, 3]  # step 2 (2017) is missing
 
 
 @pytest.mark.parametrize(
@@ -379,3 +380,16 @@ def test_nested_bands_give_nested_counts_and_errors_add_up(medians, widths, real
     # exact realisation of the medians: zero error everywhere
     exact = fc.score_forecast_record(past_forecast(rows), annual(2011, [*HISTORY, *medians]))
     assert (exact.to_frame()["error"] == 0).all() and exact.mase == 0.0
+
+
+def test_step_frame_splits_the_record_by_steps_ahead():
+    later = past_forecast([("2017", 12.0, {80: (11.0, 13.0)}), ("2018", 19.0, {80: (17.0, 21.0)})])
+    record = fc.score_forecast_record([WORKED, later], NEWER)
+    steps = record.step_frame().set_index("step")
+    # step 1: 2016 from WORKED (inside 80) and 2017 from `later` (12 in [11, 13]) -> 2 of 2
+    assert steps.loc[1, "scored"] == 2 and steps.loc[1, "inside80"] == 2
+    # step 3: only 2018 from WORKED, outside its 80% band
+    assert steps.loc[3, "scored"] == 1 and steps.loc[3, "inside80"] == 0
+    # step 1 MASE: WORKED 2016 |2| / 1.75 and `later` 2017 |12 - 12| / scale(2011-2016) = 0;
+    # mean (1.142857 + 0) / 2 = 0.571429
+    assert steps.loc[1, "mase"] == pytest.approx(0.571429, rel=1e-5)
