@@ -11,7 +11,14 @@ from collections.abc import Mapping
 from typing import Any
 
 import forecasting_core as fc
-from app.cache import get_comparison, get_forecast, settings_json
+from app.cache import (
+    get_comparison,
+    get_forecast,
+    get_search,
+    parse_settings,
+    settings_json,
+    split_settings,
+)
 from app.state import TRANSFORMS, resolve_selection, update_selection
 
 #: Model Bench settings a new session starts from (kept in ``hc-selection["bench"]``).
@@ -109,6 +116,16 @@ def comparison_key(sel: Mapping[str, Any]) -> tuple[str, str, str]:
 def comparison_for(sel: Mapping[str, Any]) -> fc.Comparison:
     """The memoized comparison for a resolved selection (see :func:`app.state.resolve_selection`)."""
     return get_comparison(*comparison_key(sel))
+
+
+def search_for(sel: Mapping[str, Any]) -> fc.Comparison:
+    """The search layer of :func:`comparison_for` (candidates and benchmarks, no hindcast).
+
+    It answers as soon as the order search is done; ``comparison_for`` adds the hindcast.
+    """
+    dataset_id, series, key = comparison_key(sel)
+    search, _hindcast = split_settings(parse_settings(key))
+    return get_search(dataset_id, series, settings_json(search))
 
 
 def chosen_candidate(comparison: fc.Comparison, label: str | None) -> fc.Candidate:

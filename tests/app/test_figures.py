@@ -137,3 +137,51 @@ def test_graph_config_offers_png_without_the_logo():
 )
 def test_value_axis_title_names_the_unit_once(name, unit, title):
     assert figures.value_axis_title(name, unit) == title
+
+
+# -- module layout: the bench's figures and views live in their own modules ----------------------
+
+
+@pytest.mark.parametrize(
+    ("name", "module"),
+    [
+        ("hindcast_figure", "app.bench_figures"),
+        ("skill_figure", "app.bench_figures"),
+        ("residuals_figure", "app.bench_figures"),
+        ("residual_acf_figure", "app.bench_figures"),
+        ("qq_figure", "app.bench_figures"),
+        ("blank_figure", "app.figure_style"),
+        ("graph_config", "app.figure_style"),
+        ("value_axis_title", "app.figure_style"),
+        ("period_x", "app.figure_style"),
+        ("STYLE", "app.figure_style"),
+        ("COLORS", "app.figure_style"),
+    ],
+)
+def test_moved_figure_names_stay_importable_from_app_figures(name, module):
+    import importlib
+
+    assert getattr(figures, name) is getattr(importlib.import_module(module), name)
+
+
+def _components(node):
+    yield node
+    children = getattr(node, "children", None)
+    for child in children if isinstance(children, list | tuple) else [children]:
+        if child is not None and not isinstance(child, str | int | float):
+            yield from _components(child)
+
+
+def test_the_first_bench_layout_holds_empty_boxes_for_its_charts():
+    # the charts come with the picked model, so a first visit need not load plotly.js first
+    from dash import dcc
+
+    from app import bench_views
+
+    parts = list(_components(bench_views.page()))
+    assert not [p for p in parts if isinstance(p, dcc.Graph)]
+    ids = {getattr(p, "id", None) for p in parts}
+    assert {f"{g}-box" for g, _name, _height in bench_views.GRAPHS} <= ids
+    graph = bench_views.graph("bench-hindcast-graph", figures.blank_figure(380).to_plotly_json())
+    assert graph.id == "bench-hindcast-graph"
+    assert graph.style == {"height": "380px"}
