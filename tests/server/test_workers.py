@@ -8,6 +8,7 @@ import re
 import signal
 import socket
 import time
+from pathlib import Path
 
 import pytest
 from conftest import free_port
@@ -119,3 +120,35 @@ def test_without_fork_several_workers_fall_back_to_one_with_a_note(
 def test_secure_cookie_is_passed_to_the_app(captured, tmp_path):
     assert server_main.main(_args(tmp_path, "--secure-cookie")) == 0
     assert captured["config"]["ACCESS_COOKIE_SECURE"] is True
+
+
+def _hammer_cache(folder: str, writer: int, rounds: int) -> int:
+    """Write ``rounds`` complete values under one shared key; count torn values read back."""
+    import hashlib
+
+    from cachelib import FileSystemCache
+
+    from app.cache import cache_config
+
+    cfg = cache_config({}, Path(folder))
+    store = FileSystemCache(cfg["CACHE_DIR"], threshold=cfg["CACHE_THRESHOLD"])
+    torn = 0
+    for i in range(rounds):
+        body = (f"{writer}-{i}-".encode() * 10_000)[:100_000]
+        store.set("shared", (hashlib.sha256(body).hexdigest(), body))
+        got = store.get("shared")
+        if got is not None and hashlib.sha256(got[1]).hexdigest() != got[0]:
+            torn += 1
+    return torn
+
+
+def test_the_result_cache_is_safe_with_writers_in_several_processes(tmp_path):
+    """flask-caching's FileSystemCache (cachelib) writes a temporary file and renames it into
+    place (os.replace, atomic on POSIX), so a reader in any process gets a whole value or none.
+    Four processes write 100 kB values under one key while reading it back."""
+    import multiprocessing
+
+    with multiprocessing.get_context("fork").Pool(4) as pool:
+        torn = pool.starmap(_hammer_cache, [(str(tmp_path), w, 30) for w in range(4)])
+    assert torn == [0, 0, 0, 0]
+    assert not [p for p in (tmp_path / "cache").iterdir() if p.name.endswith(".__wz_cache")]
