@@ -405,6 +405,28 @@ def _accepted(res, y, order, seasonal_order, constant, spec, values, llf, k, nob
     )
 
 
+def statsmodels_start(
+    y: pd.Series,
+    order: tuple[int, int, int],
+    seasonal_order: tuple[int, int, int, int] | None,
+    constant: bool,
+    spec: TransformSpec,
+) -> dict[str, float] | None:
+    """statsmodels' own default starting values by name (None when it cannot make them)."""
+    try:
+        z = transformed_values(y, spec)
+        with warnings.catch_warnings(), one_blas_thread():
+            warnings.simplefilter("ignore")
+            model = build_model(z, order, seasonal_order, constant)
+            start = np.asarray(model.start_params, dtype=float)
+    except Exception:  # noqa: BLE001 - no start, no extra check
+        return None
+    names = _sm_names_to_ours(list(model.param_names))
+    if not np.all(np.isfinite(start)):
+        return None
+    return dict(zip(names, (float(v) for v in start), strict=True))
+
+
 def candidate_at(
     y: pd.Series,
     order: tuple[int, int, int],

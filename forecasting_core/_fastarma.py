@@ -344,7 +344,12 @@ def to_start(params: dict[str, float], order, seasonal, constant: bool) -> np.nd
 
 
 def screen_specs(
-    z: np.ndarray, specs: list[Spec], *, margin: float = SCREEN_MARGIN, cold_check: int = COLD_CHECK
+    z: np.ndarray,
+    specs: list[Spec],
+    *,
+    margin: float = SCREEN_MARGIN,
+    cold_check: int = COLD_CHECK,
+    root_limit: float = 1.001,
 ) -> dict[Spec, tuple[float, dict[str, float], bool, bool]]:
     """Screen ARIMA specifications on a transformed series with the compiled likelihood.
 
@@ -360,6 +365,9 @@ def screen_specs(
         the exact likelihood (AICc units).
     cold_check : int
         The best few after that are refitted from a cold start; the higher optimum is kept.
+    root_limit : float
+        Orders with an AR or MA root closer than this to the unit circle are out of the
+        running; the best three others are always exact optima.
 
     Returns
     -------
@@ -371,7 +379,7 @@ def screen_specs(
         included; n = observations after differencing).
     """
     with _one_blas_thread():
-        return _screen_specs(z, specs, margin, cold_check)
+        return _screen_specs(z, specs, margin, cold_check, root_limit)
 
 
 def _one_blas_thread():
@@ -387,7 +395,7 @@ def _complexity(spec: Spec) -> tuple:
     return (d, D, m, const, p + q + P + Q, p, P, Q)
 
 
-def _screen_specs(z, specs, margin, cold_check):
+def _screen_specs(z, specs, margin, cold_check, root_limit):
     seen = int(np.isfinite(z).sum())
     fits: dict[Spec, FastFit] = {}
     exact: dict[Spec, bool] = {}
@@ -428,24 +436,46 @@ def _screen_specs(z, specs, margin, cold_check):
         p, d, q, P, D, Q, m, const = parts(spec)
         return fit_arma(series[(d, D, m)], p, q, const, P=P, Q=Q, m=m, start=start, hess_inv=hess_inv)
 
+    def usable(spec):
+        """Finite and admissible (no root within ``root_limit``): could be reported as chosen."""
+        fit = fits[spec]
+        return math.isfinite(aicc(spec)) and admissible(fit.ar, fit.ma, fit.seasonal_ar, fit.seasonal_ma, fit.m, root_limit)
+
+    def settle(spec, starts):
+        """Exact fits from each start in turn (None = cold); keep the best converged one."""
+        for start, hess in starts:
+            fit = refine(spec, start, hess)
+            if fit.converged and (not exact[spec] or fit.loglik > fits[spec].loglik + 1e-6):
+                fits[spec] = fit
+                exact[spec] = True
+        return exact[spec]
+
     scores = {s: aicc(s) for s in fits}
     best = min((v for v in scores.values() if math.isfinite(v)), default=math.inf)
     for spec in [s for s in specs if scores[s] <= best + margin]:
-        # the least-squares curvature is close to the likelihood's: a good first inverse Hessian
-        fit = refine(spec, fits[spec].x, fits[spec].hess_inv)
-        if fit.converged or fit.loglik > fits[spec].loglik:
-            fits[spec] = fit
-            exact[spec] = fit.converged
-    ranked = sorted((s for s in specs if exact[s]), key=aicc)
-    for spec in ranked[:cold_check]:
-        cold = refine(spec, None)
-        if cold.converged and cold.loglik > fits[spec].loglik + 1e-6:
-            fits[spec] = cold
+        # the least-squares curvature is close to the likelihood's: a good first inverse
+        # Hessian; without it (and then cold) when that start does not converge
+        first = fits[spec]
+        if not settle(spec, [(first.x, first.hess_inv)]):
+            settle(spec, [(first.x, None), (None, None)])
+    for spec in sorted((s for s in specs if exact[s]), key=aicc)[:cold_check]:
+        settle(spec, [(None, None)])
+    # The best few must be exact optima: refine any screened-only order that ranks among them
+    # (e.g. one whose screen was far off), until the top is settled.
+    failed: set = set()
+    while True:
+        top = [s for s in sorted(specs, key=aicc) if s not in failed and usable(s)][: max(cold_check, 3)]
+        todo = [s for s in top if not exact[s]]
+        if not todo:
+            break
+        for spec in todo:
+            if not settle(spec, [(fits[spec].x, None), (None, None)]):
+                failed.add(spec)
     out = {}
     for spec in specs:
         p, d, q, P, D, Q, m, const = parts(spec)
         fit = fits[spec]
-        out[spec] = (aicc(spec), to_params(fit, d, D), fit.converged, exact[spec])
+        out[spec] = (aicc(spec), to_params(fit, d, D), fit.converged and spec not in failed, exact[spec])
     return out
 
 

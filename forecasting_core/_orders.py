@@ -142,7 +142,7 @@ def _fast_candidates(y: pd.Series, spec: TransformSpec, specs: list[Spec]) -> li
     from forecasting_core._arima import ROOT_LIMIT, _rejected, transformed_values
 
     z = transformed_values(y, spec)
-    screened = _fastarma.screen_specs(z, specs)
+    screened = _fastarma.screen_specs(z, specs, root_limit=ROOT_LIMIT)
     seen = int(np.isfinite(z).sum())
     out = []
     for order, seasonal, constant in specs:
@@ -212,6 +212,33 @@ def _nearest_root(ar, ma, sar, sma, m: int) -> tuple[str, float] | None:
     return nearest
 
 
+def _from_statsmodels_start(y: pd.Series, spec: TransformSpec, c: Candidate) -> Candidate:
+    """The compiled exact fit from statsmodels' default start (a check for a better optimum).
+
+    The likelihood of a mixed ARMA can have several local maxima; the compiled search starts
+    from least squares and from zeros, statsmodels from its own default start. Returns a
+    rejected placeholder when that start leads nowhere new.
+    """
+    from forecasting_core._arima import (
+        ROOT_LIMIT,
+        _rejected,
+        candidate_at,
+        statsmodels_start,
+        transformed_values,
+    )
+    from forecasting_core._fastforecast import refit_params
+
+    none = _rejected(y, c.order, c.seasonal_order, c.constant, spec, "no other optimum")
+    start = statsmodels_start(y, c.order, c.seasonal_order, c.constant, spec)
+    if start is None:
+        return none
+    z = transformed_values(y, spec)
+    params, _, _ = refit_params(z, c.order, c.seasonal_order, c.constant, start, ROOT_LIMIT)
+    if params is None or all(abs(params[k] - c.params.get(k, math.inf)) < 1e-5 * (1 + abs(params[k])) for k in params):
+        return none
+    return candidate_at(y, c.order, c.seasonal_order, c.constant, spec, params)
+
+
 def _fast_search(y: pd.Series, spec: TransformSpec, specs: list[Spec]) -> list[Candidate]:
     """The compiled path: screen and refine in compiled code, statsmodels numbers for the best few.
 
@@ -222,11 +249,19 @@ def _fast_search(y: pd.Series, spec: TransformSpec, specs: list[Spec]) -> list[C
     from forecasting_core._arima import candidate_at
 
     results = _fast_candidates(y, spec, specs)
-    top = sorted((i for i, c in enumerate(results) if c.ok), key=lambda i: results[i].aicc)[:FAST_FINAL]
-    for i in top:
-        c = results[i]
-        results[i] = candidate_at(y, c.order, c.seasonal_order, c.constant, spec, c.params)
-    return results
+    done: set[int] = set()
+    while True:  # until the best FAST_FINAL accepted ones all carry statsmodels' numbers
+        top = sorted((i for i, c in enumerate(results) if c.ok), key=lambda i: results[i].aicc)[:FAST_FINAL]
+        todo = [i for i in top if i not in done]
+        if not todo:
+            return results
+        for i in todo:
+            c = results[i]
+            results[i] = _better(
+                candidate_at(y, c.order, c.seasonal_order, c.constant, spec, c.params),
+                _from_statsmodels_start(y, spec, c),
+            )
+            done.add(i)
 
 
 def exhaustive_search(
