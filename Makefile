@@ -8,7 +8,7 @@ HOST ?= 127.0.0.1
 PORT ?= 8050
 DATA_DIR ?= $(HOME)/.haulcast
 
-.PHONY: run test lint check-samples samples bench chromium venv clean
+.PHONY: run test lint check-samples samples bench bench-batch chromium venv clean
 
 $(BIN)/python:
 	@if ! $(PYTHON) -m venv --help >/dev/null 2>&1 || ! $(PYTHON) -c 'import ensurepip' >/dev/null 2>&1; then \
@@ -50,6 +50,9 @@ samples: $(STAMP)
 
 bench: $(STAMP)
 	$(BIN)/python benchmarks/compare_speed.py
+
+bench-batch: $(STAMP)
+	$(BIN)/python benchmarks/batch_speed.py
 
 clean:
 	rm -rf $(VENV) .pytest_cache .ruff_cache .hypothesis test-artifacts

@@ -16,6 +16,8 @@ streamed to a JSON file as they come, exactly as the command line does.
 Peak memory is the largest sum of the resident set sizes (RSS) of this process and all its
 descendants (worker processes, the Dask nanny and worker processes), sampled every 50 ms. RSS
 counts pages shared between processes once per process, so the figure is an upper bound.
+CPU seconds of the same processes are reported beside the wall time: on a shared machine the
+gap between the two is time spent waiting for a core.
 
 Run: ``.venv/bin/python benchmarks/batch_speed.py [--series 1000] [--workers 2] [--no-dask]``.
 """
@@ -98,7 +100,8 @@ def _tree_rss_proc(root: int) -> int:
     return total
 
 
-def _tree_rss_psutil(root: int) -> int:
+def _tree_rss_psutil(root: int, cpu: dict[int, tuple[float, float]] | None = None) -> int:
+    """RSS in bytes of ``root`` and its descendants; records CPU seconds per pid in ``cpu``."""
     import psutil
 
     me = psutil.Process(root)
@@ -106,24 +109,41 @@ def _tree_rss_psutil(root: int) -> int:
     for proc in [me, *me.children(recursive=True)]:
         try:
             total += proc.memory_info().rss
+            if cpu is not None:
+                t = proc.cpu_times()
+                used = t.user + t.system
+                cpu[proc.pid] = (cpu.get(proc.pid, (used, used))[0], used)
         except psutil.Error:
             pass
     return total
 
 
 class PeakMemory:
-    """Samples the RSS of this process tree in a thread; ``peak`` in bytes."""
+    """Samples the RSS of this process tree in a thread; ``peak`` in bytes.
+
+    With psutil it also sums the CPU seconds the tree used while sampling (``cpu``; None
+    without psutil), which shows how much of the wall time went to waiting for a busy machine.
+    """
 
     def __init__(self, every: float = 0.05) -> None:
+        self._cpu: dict[int, tuple[float, float]] = {}
         try:
             import psutil  # noqa: F401
 
-            self._measure, self.method = _tree_rss_psutil, "psutil"
+            self._measure = lambda pid: _tree_rss_psutil(pid, self._cpu)
+            self.method = "psutil"
         except ImportError:
             self._measure, self.method = _tree_rss_proc, "/proc"
         self._every, self.peak = every, 0
         self._stop = threading.Event()
         self._thread = threading.Thread(target=self._run, daemon=True)
+
+    @property
+    def cpu(self) -> float | None:
+        """CPU seconds (user + system) of the process tree between the first and last sample."""
+        if self.method != "psutil":
+            return None
+        return sum(last - first for first, last in self._cpu.values())
 
     def _run(self) -> None:
         while not self._stop.is_set():
@@ -169,6 +189,7 @@ def run(path: Path, out: Path, label: str, **engine) -> dict:
     return {
         "wall": wall,
         "peak": mem.peak,
+        "cpu": mem.cpu,
         "method": mem.method,
         "series": done,
         "failed": failed,
@@ -240,6 +261,9 @@ def main() -> None:
     row("wall time (s)", [results[n]["wall"] for n in names], ".1f")
     row("ms per series", [1000 * results[n]["wall"] / max(results[n]["series"], 1) for n in names], ".0f")
     row("peak memory, all (MB)", [results[n]["peak"] / 2**20 for n in names], ".0f")
+    if all(results[n]["cpu"] is not None for n in names):
+        row("CPU s, all processes", [results[n]["cpu"] for n in names], ".1f")
+        row("CPU ms per series", [1000 * results[n]["cpu"] / max(results[n]["series"], 1) for n in names], ".0f")
     row("failed series", [results[n]["failed"] for n in names], "d", ratio=False)
     if startup is not None:
         print(f"Dask cluster start-up (not in the wall time): {startup:.1f} s")
