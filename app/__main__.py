@@ -27,6 +27,7 @@ from typing import Any
 logger = logging.getLogger("haulcast.server")
 
 KEY_ENV = "HAULCAST_ACCESS_KEY"
+LOOPBACK_HOSTS = ("127.0.0.1", "localhost", "[::1]")
 MAX_WORKERS = 32
 #: Workers that die this soon after starting count as failing to start.
 _EARLY_DEATH_S = 10.0
@@ -134,6 +135,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         "ACCESS_KEY": key,
         "ACCESS_COOKIE_SECURE": bool(args.secure_cookie),
     }
+    bound = sock.getsockname()[0]
+    if key is None:  # open, loopback only: answer to loopback names only (DNS rebinding)
+        config["ALLOWED_HOSTS"] = (*LOOPBACK_HOSTS, f"[{bound}]" if ":" in bound else bound)
     if args.redis_url:
         config["CACHE_REDIS_URL"] = args.redis_url
     host, port = sock.getsockname()[:2]

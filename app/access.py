@@ -16,6 +16,11 @@ Configuration (keys of ``create_app(config)``):
 ``ACCESS_MAX_FAILURES``
     Wrong keys one address may send per minute, per server process, before it is told to
     wait (429); default 10.
+``ALLOWED_HOSTS``
+    Host names the server answers to (e.g. ``("127.0.0.1", "localhost", "[::1]")``); any other
+    ``Host`` header gets 400. ``python -m app`` sets this for an open loopback server, so that a
+    web page elsewhere cannot reach it through a name it points at 127.0.0.1 (DNS rebinding).
+    Default None: no check.
 ``SECRET_KEY``
     Signs the session cookie. Default: a random key kept in ``DATA_DIR/secret_key``
     (mode 0600, created atomically), so that every worker process and every restart share it.
@@ -155,6 +160,11 @@ def install_access(server: Flask) -> None:
     cfg["SESSION_COOKIE_SAMESITE"] = "Lax"
     cfg["SESSION_COOKIE_SECURE"] = bool(cfg.get("ACCESS_COOKIE_SECURE", False))
     cfg["PERMANENT_SESSION_LIFETIME"] = timedelta(hours=float(cfg.get("ACCESS_SESSION_HOURS", 336)))
+    server.after_request(_safety_headers)
+    hosts = cfg.get("ALLOWED_HOSTS")
+    if hosts:
+        cfg["ALLOWED_HOSTS"] = tuple(str(h).lower() for h in hosts)
+        server.before_request_funcs.setdefault(None, []).insert(0, _check_host)
     key = cfg.get("ACCESS_KEY")
     if key is None or key == "":
         cfg["ACCESS_KEY"] = None
@@ -169,6 +179,30 @@ def install_access(server: Flask) -> None:
     server.add_url_rule(LOGOUT_PATH, "haulcast_forget", _forget, methods=["GET", "POST"])
     # first of all request hooks, before Dash's own set-up and page routing
     server.before_request_funcs.setdefault(None, []).insert(0, _require_key)
+
+
+def _safety_headers(response: Response) -> Response:
+    """No MIME sniffing, no framing by other sites (a publish button under a decoy), no
+    addresses (with analysis ids) sent to other sites as the referrer."""
+    response.headers.setdefault("X-Content-Type-Options", "nosniff")
+    response.headers.setdefault("X-Frame-Options", "SAMEORIGIN")
+    response.headers.setdefault("Referrer-Policy", "same-origin")
+    return response
+
+
+def _check_host() -> Response | None:
+    """Refuse a request whose Host header names another machine (DNS rebinding)."""
+    host = (request.host or "").lower()
+    name = host.rsplit(":", 1)[0] if not host.endswith("]") else host
+    if name.startswith("[") and "]" in name:
+        name = name[: name.index("]") + 1]
+    if name in current_app.config["ALLOWED_HOSTS"]:
+        return None
+    return error_response(
+        400,
+        f"This server answers only to {', '.join(current_app.config['ALLOWED_HOSTS'])}. "
+        f"Got Host {host[:80]!r} instead.",
+    )
 
 
 # ---------------------------------------------------------------------------------------------

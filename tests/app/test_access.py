@@ -309,3 +309,40 @@ def test_processes_starting_at_once_agree_on_one_secret(tmp_path):
         secrets_seen = pool.map(_secret_in, [str(tmp_path / "race")] * 24)
     assert len(set(secrets_seen)) == 1
     assert [p.name for p in (tmp_path / "race").iterdir()] == ["secret_key"]  # no temp files left
+
+
+@pytest.mark.parametrize(
+    ("host", "status"),
+    [
+        ("127.0.0.1:8050", 200),
+        ("localhost:8050", 200),
+        ("[::1]:8050", 200),
+        ("LOCALHOST", 200),
+        ("rebind.evil.example:8050", 400),
+        ("127.0.0.1.evil.example", 400),
+    ],
+)
+def test_an_open_loopback_server_answers_only_to_loopback_names(tmp_path, host, status):
+    app = create_app(
+        {
+            "DATA_DIR": str(tmp_path / "d"),
+            "CACHE_TYPE": "SimpleCache",
+            "LOAD_SAMPLES": False,
+            "ALLOWED_HOSTS": ("127.0.0.1", "localhost", "[::1]"),
+        }
+    )
+    response = app.server.test_client().get("/_dash-layout", headers={"Host": host})
+    assert response.status_code == status
+    if status == 400:
+        assert "This server answers only to 127.0.0.1, localhost, [::1]" in response.json["error"]
+
+
+def test_every_answer_forbids_sniffing_framing_by_others_and_referrers(client):
+    for response in (
+        client.get("/_dash-layout"),
+        client.get("/key"),
+        client.get("/_dash-layout", headers=AUTH),
+    ):
+        assert response.headers["X-Content-Type-Options"] == "nosniff"
+        assert response.headers["X-Frame-Options"] in ("SAMEORIGIN", "DENY")
+        assert response.headers["Referrer-Policy"] == "same-origin"

@@ -62,6 +62,7 @@ def captured(monkeypatch):
 def test_loopback_is_open_without_a_key(captured, tmp_path):
     assert server_main.main(_args(tmp_path)) == 0
     assert captured["config"]["ACCESS_KEY"] is None
+    assert captured["config"]["ALLOWED_HOSTS"] == ("127.0.0.1", "localhost", "[::1]", "127.0.0.1")
     assert "Open to this machine only" in captured["banner"]
 
 
@@ -71,6 +72,7 @@ def test_any_other_address_gets_a_generated_key_printed_once(captured, tmp_path,
     key = captured["config"]["ACCESS_KEY"]
     assert key and len(key) >= 32
     assert captured["banner"].count(key) == 1
+    assert "ALLOWED_HOSTS" not in captured["config"]  # a keyed server answers to any name
     assert "set $HAULCAST_ACCESS_KEY to choose one" in captured["banner"]
 
 
