@@ -284,7 +284,16 @@ def _run(
                     i = todo.popleft()
                 else:
                     break
-                pending[engine.submit(names[i], table.series[names[i]], horizon, options)] = i
+                try:
+                    pending[engine.submit(names[i], table.series[names[i]], horizon, options)] = i
+                except Exception as exc:  # the pool broke since the last wait
+                    if engine.broken_error is None or not isinstance(exc, engine.broken_error):
+                        raise
+                    suspects.appendleft(i)
+                    isolated = False
+                    if not pending:  # else the broken futures below lead to the restart
+                        engine.restart()
+                    break
                 if isolated:
                     break
             while next_out < total and next_out in ready:
