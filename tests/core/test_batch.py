@@ -196,3 +196,20 @@ def test_streamed_json_list_is_byte_identical_to_json_dump(count):
 def test_workers_and_scheduler_together_say_which_to_drop(small_file):
     with pytest.raises(InputError, match="workers applies to local runs only"):
         run_batch(small_file, 2, workers=2, scheduler="tcp://127.0.0.1:8786")
+
+
+def test_scheduler_without_dask_installed_exits_2_and_names_the_extra(small_file, capsys, monkeypatch):
+    import argparse
+    import sys
+
+    from forecasting_core._cli_models import _cli_batch
+
+    monkeypatch.setitem(sys.modules, "distributed", None)  # import distributed -> ImportError
+    args = argparse.Namespace(
+        file=str(small_file), horizon="2", transform="none", workers=None, json=True, out=None,
+        scheduler="tcp://127.0.0.1:8786",
+    )  # fmt: skip
+    code = _cli_batch(args)
+    err = capsys.readouterr().err
+    assert code == 2
+    assert "pip install 'haulcast[cluster]'" in err and "Traceback" not in err

@@ -10,7 +10,6 @@ from __future__ import annotations
 import argparse
 import json
 import socket
-import sys
 from pathlib import Path
 
 import numpy as np
@@ -141,14 +140,6 @@ def test_unreachable_scheduler_exits_2_with_a_plain_message(five_series, capsys,
     assert code == 2
     assert err.startswith(f"error: could not reach the Dask scheduler at {address} (")
     assert "Traceback" not in err
-
-
-def test_missing_dask_exits_2_and_names_the_extra(five_series, capsys, monkeypatch):
-    monkeypatch.setitem(sys.modules, "distributed", None)  # import distributed -> ImportError
-    code = _cli_batch(batch_args(file=str(five_series), scheduler="tcp://127.0.0.1:8786"))
-    err = capsys.readouterr().err
-    assert code == 2
-    assert "pip install 'haulcast[cluster]'" in err and "Traceback" not in err
 
 
 @pytest.mark.parametrize(
