@@ -148,3 +148,23 @@ def test_an_error_inside_a_view_is_a_500_with_a_message_and_no_traceback(tmp_pat
     assert "error was logged" in response.json["error"]
     assert "secret internals" not in response.get_data(as_text=True)
     assert "secret internals" in caplog.text  # the administrator sees it in the log
+
+
+def test_no_module_of_the_app_unpickles_evaluates_or_renders_raw_html():
+    """Nothing a user sends is unpickled, evaluated or rendered as HTML (the result cache
+    pickles only what the server computed, inside flask-caching)."""
+    import re
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[2] / "app"
+    banned = re.compile(
+        r"pickle\.loads?\(|\beval\(|\bexec\(|marshal\.loads?\(|yaml\.load\(|"
+        r"dangerously_allow_html\s*=\s*True|srcDoc\s*="
+    )
+    hits = [
+        f"{path.relative_to(root)}:{n}: {line.strip()}"
+        for path in sorted(root.rglob("*.py"))
+        for n, line in enumerate(path.read_text(encoding="utf-8").splitlines(), 1)
+        if banned.search(line)
+    ]
+    assert hits == []
