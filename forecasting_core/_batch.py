@@ -184,7 +184,8 @@ def iter_batch(
     Same parameters and records as :func:`run_batch`, which collects this into a list. Settings
     are checked (and a scheduler connected to) when this is called, not at the first record.
     Records are handed back as soon as they and every series before them are done; at most
-    ``window`` series are in work or waiting to be handed back at any time.
+    ``window`` series are in work or waiting to be handed back at any time. Iterate to the end
+    or ``close()`` the iterator: that releases the worker processes or the cluster connection.
 
     Parameters
     ----------
