@@ -33,7 +33,7 @@ from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
-from flask import Flask
+from flask import Flask, Response, request
 from flask_caching import Cache
 
 import forecasting_core as fc
@@ -67,8 +67,25 @@ def cache_config(config: Mapping[str, Any], data_dir: Path) -> dict[str, Any]:
 
 
 def init_cache(server: Flask, config: Mapping[str, Any], data_dir: Path) -> None:
-    """Bind :data:`cache` to ``server`` with the configured backend."""
+    """Bind :data:`cache` to ``server`` with the configured backend; let browsers keep assets."""
     cache.init_app(server, config=cache_config(config, data_dir))
+    server.after_request(asset_cache_headers)
+
+
+#: Seconds a browser may keep an asset without asking again: a year for fingerprinted ones
+#: (Dash adds ``?m=<mtime>`` to stylesheets and scripts), an hour for the rest (the logo).
+ASSET_MAX_AGE = {"fingerprinted": 365 * 24 * 3600, "plain": 3600}
+
+
+def asset_cache_headers(response: Response) -> Response:
+    """``Cache-Control`` for files under ``/assets/``, so a page switch never refetches them.
+
+    ``private``: with an access key the assets are behind it, so no shared cache keeps them.
+    """
+    if request.path.startswith("/assets/") and response.status_code == 200:
+        kind = "fingerprinted" if request.args.get("m") else "plain"
+        response.headers["Cache-Control"] = f"private, max-age={ASSET_MAX_AGE[kind]}"
+    return response
 
 
 def settings_json(settings: Mapping[str, Any] | None) -> str:

@@ -226,3 +226,22 @@ def test_bad_settings_raise_the_cores_message_and_are_not_cached(
     for _ in range(2):
         with app.server.test_request_context(), pytest.raises(fc.InputError, match=message):
             get_comparison(nile_id, "nile", settings_json(settings))
+
+
+@pytest.mark.parametrize(
+    ("path", "cache_control"),
+    [
+        ("/assets/haulcast-mark.svg", "private, max-age=3600"),
+        ("/assets/haulcast.css?m=1700000000.0", "private, max-age=31536000"),
+    ],
+)
+def test_assets_may_be_kept_by_the_browser(app, path, cache_control):
+    # common practice: fingerprinted files cached long, the rest briefly (RFC 9111 max-age)
+    response = app.server.test_client().get(path)
+    assert response.status_code == 200
+    assert response.headers["Cache-Control"] == cache_control
+
+
+def test_pages_and_callbacks_get_no_asset_caching(app):
+    response = app.server.test_client().get("/bench")
+    assert "max-age" not in response.headers.get("Cache-Control", "")
