@@ -322,6 +322,21 @@ def test_a_script_in_a_series_name_is_shown_as_text_and_escaped_in_the_report(cl
     assert SCRIPT not in report["content"]
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in report["content"]
     assert "/" not in report["filename"] and "<" not in report["filename"]
+    # saved with the script as its title too: the home page lists it as text
+    session.save(SCRIPT + " title", author=SCRIPT)
+    home = client.find("home-list.children", inputs=["home-search.value"])
+    reply, out = client.call(
+        home,
+        {
+            "home-search.value": "alert",
+            "home-status.value": "all",
+            "home-sort.value": "stock",
+            "home-versions.value": [],
+        },
+    )
+    assert reply.status == 200 and not error_texts(out)
+    _no_html_rendering(out)
+    assert SCRIPT + " title" in text_of(out["home-list"]["children"])
 
 
 FORMULA = '=HYPERLINK("http://evil.example","x")'
