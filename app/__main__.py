@@ -71,6 +71,13 @@ def build_parser() -> argparse.ArgumentParser:
         help="mark the access cookie Secure (browsers send it over HTTPS only): set this "
         "behind a TLS reverse proxy",
     )
+    parser.add_argument(
+        "--trusted-proxy",
+        default=None,
+        metavar="ADDRESS",
+        help="address of a reverse proxy whose X-Forwarded-For/-Proto/-Host headers are believed "
+        "(e.g. 127.0.0.1); headers from anyone else are dropped",
+    )
     parser.add_argument("--no-samples", action="store_true", help="do not load the demo datasets")
     return parser
 
@@ -134,6 +141,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         "DATA_DIR": str(data_dir),
         "ACCESS_KEY": key,
         "ACCESS_COOKIE_SECURE": bool(args.secure_cookie),
+        "TRUSTED_PROXY": args.trusted_proxy,
     }
     bound = sock.getsockname()[0]
     if key is None:  # open, loopback only: answer to loopback names only (DNS rebinding)
@@ -188,6 +196,21 @@ def _waitress(app: Any, sock: socket.socket, threads: int) -> Any:
     from waitress import create_server
 
     limit = int(app.server.config.get("MAX_CONTENT_LENGTH") or 0)
+    proxy = app.server.config.get("TRUSTED_PROXY")
+    extra: dict[str, Any] = {}
+    if proxy:
+        # the proxy's X-Forwarded-* headers say who the client is (the wrong-key limit counts
+        # per client), which scheme and host it used (share links); from no one else
+        extra = {
+            "trusted_proxy": str(proxy),
+            "trusted_proxy_count": 1,
+            "trusted_proxy_headers": {
+                "x-forwarded-for",
+                "x-forwarded-proto",
+                "x-forwarded-host",
+                "x-forwarded-port",
+            },
+        }
     return create_server(
         app.server,
         sockets=[sock],
@@ -197,6 +220,7 @@ def _waitress(app: Any, sock: socket.socket, threads: int) -> Any:
         # its own 413 message
         max_request_body_size=(limit + 1_048_576) if limit else 1_073_741_824,
         clear_untrusted_proxy_headers=True,
+        **extra,
     )
 
 

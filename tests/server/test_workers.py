@@ -154,3 +154,27 @@ def test_the_result_cache_is_safe_with_writers_in_several_processes(tmp_path):
         torn = pool.starmap(_hammer_cache, [(str(tmp_path), w, 30) for w in range(4)])
     assert torn == [0, 0, 0, 0]
     assert not [p for p in (tmp_path / "cache").iterdir() if p.name.endswith(".__wz_cache")]
+
+
+@pytest.mark.parametrize("proxy", [None, "127.0.0.1"])
+def test_forwarded_headers_are_believed_only_from_the_trusted_proxy(tmp_path, proxy):
+    from app import create_app
+
+    app = create_app(
+        {
+            "DATA_DIR": str(tmp_path),
+            "CACHE_TYPE": "SimpleCache",
+            "LOAD_SAMPLES": False,
+            "TRUSTED_PROXY": proxy,
+        }
+    )
+    sock = server_main.bind("127.0.0.1", free_port())
+    try:
+        server = server_main._waitress(app, sock, 2)
+        assert server.adj.trusted_proxy == proxy
+        assert server.adj.clear_untrusted_proxy_headers is True
+        if proxy:
+            assert "x-forwarded-for" in server.adj.trusted_proxy_headers
+        server.close()
+    finally:
+        sock.close()
