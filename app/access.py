@@ -246,6 +246,8 @@ def _require_key() -> Response | None:
         return None
     token = _bearer()
     if token is not None:
+        if _limited():  # no key is even compared for an address that guessed too often
+            return _too_many()
         if _matches(token):
             return None
         limited = _note_failure()
@@ -286,6 +288,15 @@ class _Failures:
         self._lock = threading.Lock()
         self._seen: dict[str, collections.deque[float]] = {}
 
+    def over(self, address: str) -> bool:
+        """Whether the address already sent more wrong keys than allowed in the last minute."""
+        now = time.monotonic()
+        with self._lock:
+            times = self._seen.get(address)
+            while times and now - times[0] > 60:
+                times.popleft()
+            return bool(times) and len(times) > self.limit
+
     def add(self, address: str) -> bool:
         """Count one failure; True when the address is over the limit."""
         now = time.monotonic()
@@ -300,18 +311,25 @@ class _Failures:
             return len(times) > self.limit
 
 
+def _limited() -> bool:
+    failures: _Failures = current_app.extensions["haulcast_access_failures"]
+    return failures.over(request.remote_addr or "?")
+
+
+def _too_many() -> Response:
+    response = error_response(
+        429, "Too many wrong access keys from this address; wait a minute and try again."
+    )
+    response.headers["Retry-After"] = "60"
+    return response
+
+
 def _note_failure() -> Response | None:
     failures: _Failures = current_app.extensions["haulcast_access_failures"]
     over = failures.add(request.remote_addr or "?")
     time.sleep(float(current_app.config.get("ACCESS_FAIL_DELAY", 0.25)))
     logger.warning("Wrong access key from %s", request.remote_addr)
-    if over:
-        response = error_response(
-            429, "Too many wrong access keys from this address; wait a minute and try again."
-        )
-        response.headers["Retry-After"] = "60"
-        return response
-    return None
+    return _too_many() if over else None
 
 
 # ---------------------------------------------------------------------------------------------
@@ -342,6 +360,8 @@ def _key_page() -> Response:
         return _page(next_path=_local(request.args.get("next")), status=200)
     next_path = _local(request.form.get("next"))
     candidate = request.form.get("key", "")
+    if candidate and _limited():
+        return _too_many()
     if candidate and _matches(candidate):
         session.clear()
         session[_SESSION_FIELD] = _fingerprint(_key())

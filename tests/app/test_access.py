@@ -246,6 +246,24 @@ def test_wrong_keys_from_one_address_are_slowed_then_refused(tmp_path):
     assert response.status_code == 429
     assert response.headers["Retry-After"] == "60"
     assert "Too many wrong access keys" in response.json["error"]
+    # while limited, not even the right key is compared (guessing gains nothing)
+    assert client.post(KEY_PATH, data={"key": KEY}).status_code == 429
+    assert client.get("/_dash-layout", headers=AUTH).status_code == 429
+    assert client.get("/_dash-layout").status_code == 401  # no key sent: the plain refusal
+
+
+def test_the_wrong_key_limit_forgets_after_a_minute(tmp_path, monkeypatch):
+    import app.access as access
+
+    now = [1000.0]
+    monkeypatch.setattr(access.time, "monotonic", lambda: now[0])
+    client = _app(tmp_path, ACCESS_MAX_FAILURES=1).server.test_client()
+    assert [
+        client.post(KEY_PATH, data={"key": f"wrong-key-{i:04d}"}).status_code for i in range(2)
+    ] == [401, 429]
+    assert client.post(KEY_PATH, data={"key": KEY}).status_code == 429
+    now[0] += 61
+    assert client.post(KEY_PATH, data={"key": KEY}).status_code == 303
 
 
 def test_keys_are_compared_in_constant_time(client, monkeypatch):
