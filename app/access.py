@@ -396,7 +396,7 @@ def _page(*, next_path: str, status: int, message: str | None = None) -> Respons
 _KEY_PAGE = """<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8">
 <meta name="viewport" content="width=device-width, initial-scale=1">
-<meta name="robots" content="noindex">
+<meta name="robots" content="noindex"><link rel="icon" href="data:,">
 <title>Access key \u00b7 Haulcast</title>
 <style>
 body{{font:16px/1.5 system-ui,-apple-system,"Segoe UI",sans-serif;background:#f3f6f7;color:#1d2b36;margin:0}}
