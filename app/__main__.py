@@ -1,7 +1,7 @@
 """Start the dashboard: ``python -m app [--host 127.0.0.1] [--port 8050] [--data-dir DIR] [--workers N]``.
 
-The server is waitress (pure Python). With ``--workers N`` above 1 (Linux and other systems
-with ``fork``), the parent process binds the port, forks N worker processes that each build
+The server is waitress (pure Python). With ``--workers N`` above 1 (Linux only: elsewhere it
+says so and serves with one process), the parent process binds the port, forks N worker processes that each build
 their own app (their own SQLite connections) and serve the shared listening socket, and
 supervises them: a worker that dies is replaced, SIGTERM or Ctrl+C stops them all.
 
@@ -60,7 +60,7 @@ def build_parser() -> argparse.ArgumentParser:
         "--workers",
         type=int,
         default=1,
-        help="server processes sharing the port (default 1; more than 1 needs Linux or another system with fork)",
+        help="server processes sharing the port (default 1; more than 1 on Linux only)",
     )
     parser.add_argument(
         "--threads", type=int, default=8, help="request threads per process (default 8)"
@@ -100,10 +100,11 @@ def main(argv: Sequence[str] | None = None) -> int:
     from app.access import generate_key, key_problem, load_secret_key
 
     workers = args.workers
-    if workers > 1 and not hasattr(os, "fork"):
+    if workers > 1 and not (sys.platform.startswith("linux") and hasattr(os, "fork")):
+        # macOS has fork, but forking a process that has loaded system frameworks is unsafe there
         print(
-            f"note: --workers {workers} needs a system with fork (Linux, macOS); "
-            "serving with 1 process (its threads still serve requests at once).",
+            f"note: --workers {workers} is for Linux only; serving with 1 process "
+            "(its threads still serve requests at once).",
             file=sys.stderr,
             flush=True,
         )

@@ -110,12 +110,16 @@ def test_a_taken_port_is_a_plain_error(tmp_path, capsys):
     assert f"cannot listen on 127.0.0.1:{port}" in capsys.readouterr().err
 
 
-def test_without_fork_several_workers_fall_back_to_one_with_a_note(
-    captured, tmp_path, monkeypatch, capsys
+@pytest.mark.parametrize("platform", ["darwin", "win32", "no-fork"])
+def test_off_linux_several_workers_fall_back_to_one_with_a_note(
+    captured, tmp_path, monkeypatch, capsys, platform
 ):
-    monkeypatch.delattr(os, "fork")
+    if platform == "no-fork":
+        monkeypatch.delattr(os, "fork")
+    else:
+        monkeypatch.setattr(server_main.sys, "platform", platform)
     assert server_main.main(_args(tmp_path, "--workers", "3")) == 0
-    assert "serving with 1 process" in capsys.readouterr().err
+    assert "is for Linux only; serving with 1 process" in capsys.readouterr().err
     assert "worker processes" not in captured["banner"]
 
 
