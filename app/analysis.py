@@ -110,7 +110,18 @@ def comparison_key(sel: Mapping[str, Any]) -> tuple[str, str, str]:
             "a dataset with at least one usable series must be chosen on Intake first."
         )
     kwargs = compare_kwargs(sel.get("bench") or {}, sel.get("transform") or "auto")
+    if kwargs["seasonal"] is False and _frequency(sel) == "annual":
+        # annual data has no seasonal terms either way: one cache entry, not two (the Bench
+        # shows the seasonal box unticked for annual data, a new session has it ticked)
+        kwargs["seasonal"] = None
     return str(sel["dataset_id"]), str(sel["series"]), settings_json(kwargs)
+
+
+def _frequency(sel: Mapping[str, Any]) -> str | None:
+    from app.store import get_store
+
+    info = get_store().load_table(str(sel["dataset_id"])).info.get(str(sel["series"]))
+    return info.frequency if info is not None else None
 
 
 def comparison_for(sel: Mapping[str, Any]) -> fc.Comparison:

@@ -245,3 +245,17 @@ def test_assets_may_be_kept_by_the_browser(app, path, cache_control):
 def test_pages_and_callbacks_get_no_asset_caching(app):
     response = app.server.test_client().get("/bench")
     assert "max-age" not in response.headers.get("Cache-Control", "")
+
+
+def test_annual_data_has_one_cache_entry_whether_the_seasonal_box_is_ticked(app, nile_id, calls):
+    # the core's seasonal=None and seasonal=False both mean "no seasonal terms" for annual data
+    from app.analysis import comparison_for, comparison_key
+
+    base = {"dataset_id": nile_id, "series": "nile", "transform": "auto"}
+    ticked = {**base, "bench": {"max_p": 1, "max_q": 1, "seasonal": True}}
+    unticked = {**base, "bench": {"max_p": 1, "max_q": 1, "seasonal": False}}
+    with app.server.test_request_context():
+        assert comparison_key(ticked) == comparison_key(unticked)
+        comparison_for(ticked)
+        comparison_for(unticked)
+    assert calls == ["compare_models", "run_hindcast"]
