@@ -115,7 +115,7 @@ def filter_candidate(candidate: Candidate, z: np.ndarray | None = None):
         model = build_model(z, candidate.order, candidate.seasonal_order, candidate.constant)
         names = _sm_names_to_ours(list(model.param_names))
         params = np.array([candidate.params[n] for n in names], dtype=float)
-        return model.filter(params)
+        return model.filter(params, cov_type="none")
 
 
 def _rejected(
@@ -177,7 +177,10 @@ def _start_vector(
 
 
 def _root_problem(res) -> str | None:
-    for kind, roots, word in (("AR", res.arroots, "non-stationary"), ("MA", res.maroots, "non-invertible")):
+    with warnings.catch_warnings(), np.errstate(all="ignore"):
+        warnings.simplefilter("ignore")  # statsmodels' reciprocal of a zero root
+        pairs = (("AR", res.arroots, "non-stationary"), ("MA", res.maroots, "non-invertible"))
+    for kind, roots, word in pairs:
         roots = np.atleast_1d(roots)
         if roots.size and np.min(np.abs(roots)) < ROOT_LIMIT:
             return (
@@ -405,19 +408,30 @@ def _accepted(res, y, order, seasonal_order, constant, spec, values, llf, k, nob
     )
 
 
-def statsmodels_start(
+def statsmodels_model(
     y: pd.Series,
     order: tuple[int, int, int],
     seasonal_order: tuple[int, int, int, int] | None,
     constant: bool,
     spec: TransformSpec,
-) -> dict[str, float] | None:
-    """statsmodels' own default starting values by name (None when it cannot make them)."""
+):
+    """The statsmodels model of a candidate (sigma2 not concentrated), or None when it fails."""
     try:
         z = transformed_values(y, spec)
         with warnings.catch_warnings(), one_blas_thread():
             warnings.simplefilter("ignore")
-            model = build_model(z, order, seasonal_order, constant)
+            return build_model(z, order, seasonal_order, constant)
+    except Exception:  # noqa: BLE001 - reported by the caller as a failed fit
+        return None
+
+
+def statsmodels_start(model) -> dict[str, float] | None:
+    """statsmodels' own default starting values by name (None when it cannot make them)."""
+    if model is None:
+        return None
+    try:
+        with warnings.catch_warnings(), one_blas_thread():
+            warnings.simplefilter("ignore")
             start = np.asarray(model.start_params, dtype=float)
     except Exception:  # noqa: BLE001 - no start, no extra check
         return None
@@ -434,11 +448,13 @@ def candidate_at(
     constant: bool,
     spec: TransformSpec,
     params: Mapping[str, float],
+    model=None,
 ) -> Candidate:
     """The Candidate of given parameters, from one statsmodels ``filter(params)`` pass (no fit).
 
     The likelihood, AICc and the root check are statsmodels' own at ``params`` (e.g. the
-    compiled fast path's converged estimate); never raises for a fit problem.
+    compiled fast path's converged estimate); ``model`` is a prepared
+    :func:`statsmodels_model` to reuse. Never raises for a fit problem.
     """
     order = tuple(int(v) for v in order)
     seasonal_order = tuple(int(v) for v in seasonal_order) if seasonal_order else None
@@ -449,9 +465,10 @@ def candidate_at(
         nobs = int(np.isfinite(z).sum()) - burn
         with warnings.catch_warnings(), one_blas_thread():
             warnings.simplefilter("ignore")
-            model = build_model(z, order, seasonal_order, constant)
+            if model is None:
+                model = build_model(z, order, seasonal_order, constant)
             names = _sm_names_to_ours(list(model.param_names))
-            res = model.filter(np.array([params[n] for n in names], dtype=float))
+            res = model.filter(np.array([params[n] for n in names], dtype=float), cov_type="none")
     except Exception as exc:  # noqa: BLE001 - any statsmodels/numpy failure becomes a reason
         return _rejected(y, order, seasonal_order, constant, spec, f"fit failed: {type(exc).__name__}: {exc}")
     k = len(names)

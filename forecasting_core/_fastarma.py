@@ -227,7 +227,8 @@ def fit_arma(
     k = p + q + P + Q + int(mean)
     x0 = np.zeros(k) if start is None else np.asarray(start, dtype=float).copy()
     if mean and start is not None:
-        x0[-1] = (x0[-1] - centre) / scale
+        # a start without a mean (NaN) begins at the sample mean
+        x0[-1] = 0.0 if math.isnan(x0[-1]) else (x0[-1] - centre) / scale
     if not np.all(np.isfinite(x0)):
         x0 = np.zeros(k)
     converged = True
@@ -321,7 +322,9 @@ def to_params(fit: FastFit, d: int, D: int) -> dict[str, float]:
 def to_start(params: dict[str, float], order, seasonal, constant: bool) -> np.ndarray | None:
     """Unconstrained start ``[ar, ma, sar, sma, mean]`` from statsmodels-named parameters.
 
-    None when a polynomial is not strictly stationary/invertible (no valid start).
+    Lag terms absent from ``params`` start at zero, an absent mean as NaN (``fit_arma``
+    then starts it at the sample mean). None when a polynomial is not strictly
+    stationary/invertible (no valid start).
     """
     p, d, q = order
     P, D, Q, m = seasonal if seasonal else (0, 0, 0, 1)
@@ -338,7 +341,7 @@ def to_start(params: dict[str, float], order, seasonal, constant: bool) -> np.nd
         blocks.append(unconstrain(coefs))
     if constant:
         lag = m if (D and not d) else 1
-        value = params.get("const" if d + D == 0 else "drift", 0.0)
+        value = params.get("const" if d + D == 0 else "drift", math.nan)
         blocks.append(np.array([value * lag]))
     return np.concatenate(blocks) if blocks else np.zeros(0)
 

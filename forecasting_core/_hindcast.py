@@ -262,10 +262,12 @@ def _verdict(
             f"{mine['origin'].nunique()} origins)."
         )
     base = table[table["model"] == naive]
-    keys = ["origin", "step"]
-    common = mine[keys].merge(base[keys], on=keys)
-    mine = mine.merge(common, on=keys)
-    base = base.merge(common, on=keys)
+    # the forecasts both made (same origin and step): an inner join, without pandas' merge
+    mine_keys = list(zip(mine["origin"], mine["step"], strict=True))
+    base_keys = list(zip(base["origin"], base["step"], strict=True))
+    common = set(mine_keys) & set(base_keys)
+    mine = mine[np.array([k in common for k in mine_keys], dtype=bool)]
+    base = base[np.array([k in common for k in base_keys], dtype=bool)]
     a, b = _mase_on(mine), _mase_on(base)
     k = mine["origin"].nunique()
     where = f"over {k} origin{'s' if k != 1 else ''}"

