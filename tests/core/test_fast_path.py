@@ -243,3 +243,15 @@ def test_warm_up_compiles_everything_a_comparison_needs():
     fc.compare_models(gappy, max_p=1, max_q=1, hindcast_origins=3)
     after = {k.__name__: len(k.signatures) for k in kernels}
     assert after == before
+
+
+def test_without_numba_everything_runs_on_statsmodels(monkeypatch):
+    from forecasting_core import _fastarma
+
+    y, d = _simulate(1)
+    fast = fc.compare_models(y, transform="none", d=d, max_p=1, max_q=1, hindcast_origins=3)
+    monkeypatch.setattr(_fastarma, "_HAVE_NUMBA", False)
+    plain = fc.compare_models(y, transform="none", d=d, max_p=1, max_q=1, hindcast_origins=3)
+    assert plain.best.label == fast.best.label
+    assert plain.best.aicc == pytest.approx(fast.best.aicc, abs=0.05)
+    assert plain.hindcast.scores[0].mase == pytest.approx(fast.hindcast.scores[0].mase, rel=1e-3)
