@@ -17,6 +17,17 @@ The exhaustive search fits every order of the grid in two passes:
 Chains and full fits are independent tasks, so ``workers > 1`` spreads them over processes
 and the result is identical whatever the number of workers.
 
+With numba installed (``engine="auto"``) and no gap hidden by differencing, the same two
+passes run in compiled code instead (``_fastarma.screen_specs``): a conditional-least-squares
+screen with the exact likelihood evaluated at each estimate, exact-likelihood fits to
+convergence of every order within 4 AICc of the best screen, cold restarts of the best two,
+and exact fits of any screened-only order that reaches the best three. The best
+``FAST_FINAL`` accepted orders are then also fitted from statsmodels' own default start
+(the higher likelihood wins) and handed to statsmodels' ``filter(params)``, so the chosen
+model's likelihood, AICc and roots are statsmodels' own at an optimum the tests hold to
+statsmodels' exact MLE (coefficients 1e-3, AICc 0.05). The stepwise search fits each order
+it visits the same way (compiled exact fit, statsmodels numbers for the best few).
+
 The stepwise search follows Hyndman & Khandakar (2008, "Automatic time series forecasting",
 Journal of Statistical Software 27(3), section 3.2): start from the best of four simple
 models, then repeatedly move to the best neighbour (p, q, P, Q changed by one, p and q
