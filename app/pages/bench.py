@@ -242,13 +242,18 @@ def render_hindcast(
     Output("bench-alert", "children", allow_duplicate=True),
     Output("bench-candidates", "style_data_conditional"),
     Input("bench-candidates", "selected_rows"),
+    # a new hindcast (e.g. "Run" with another horizon, the same row picked) redraws the charts
+    Input("bench-skill", "data"),
     State("bench-candidates", "data"),
     State(SELECTION_ID, "data"),
     prevent_initial_call=True,
 )
 @guarded("showing the picked model", outputs=10, alert_at=8)
 def pick(
-    selected: list[int] | None, rows: list[dict[str, Any]] | None, data: Mapping[str, Any] | None
+    selected: list[int] | None,
+    _skill: Any,
+    rows: list[dict[str, Any]] | None,
+    data: Mapping[str, Any] | None,
 ) -> list[Any]:
     if not selected or not rows or selected[0] >= len(rows):
         raise PreventUpdate
