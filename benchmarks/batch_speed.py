@@ -13,9 +13,12 @@ streamed to a JSON file as they come, exactly as the command line does.
   process, then ``run_batch(..., scheduler=cluster)``. The cluster's start-up is reported
   separately and not in the run's wall time.
 
-Peak memory is the largest sum of the resident set sizes (RSS) of this process and all its
-descendants (worker processes, the Dask nanny and worker processes), sampled every 50 ms. RSS
-counts pages shared between processes once per process, so the figure is an upper bound.
+Peak memory is measured over this process and all its descendants (worker processes, the Dask
+worker processes), sampled every 0.1 s, as the largest sum of resident set sizes (RSS: pages
+shared between processes, e.g. what forked workers share with the parent, counted once per
+process: an upper bound, the figure compared with the target) and of proportional set sizes
+(PSS: a page shared by k processes counts 1/k in each; pages shared with programs outside the
+tree are split with them too, so on a busy machine this is a lower bound).
 CPU seconds of the same processes are reported beside the wall time: on a shared machine the
 gap between the two is time spent waiting for a core.
 
@@ -76,8 +79,20 @@ def write_file(path: Path, series: int, length: int) -> None:
 # ---------------------------------------------------------------------------------------------
 
 
-def _tree_rss_proc(root: int) -> int:
-    """RSS in bytes of ``root`` and its descendants, from /proc (no psutil)."""
+def _pss_proc(pid: int) -> int:
+    """Proportional set size in bytes from /proc/PID/smaps_rollup (0 when unreadable)."""
+    try:
+        with open(f"/proc/{pid}/smaps_rollup", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("Pss:"):
+                    return int(line.split()[1]) * 1024
+    except (OSError, ValueError):
+        pass
+    return 0
+
+
+def _tree_proc(root: int) -> tuple[int, int]:
+    """(RSS, PSS) in bytes of ``root`` and its descendants, from /proc (no psutil)."""
     parent: dict[int, int] = {}
     rss: dict[int, int] = {}
     page = os.sysconf("SC_PAGE_SIZE")
@@ -92,49 +107,55 @@ def _tree_rss_proc(root: int) -> int:
             parent[int(entry)] = int(fields[1])
         except (OSError, IndexError, ValueError):
             continue
-    total, todo = 0, [root]
+    total_rss = total_pss = 0
+    todo = [root]
     while todo:
         pid = todo.pop()
-        total += rss.get(pid, 0)
+        total_rss += rss.get(pid, 0)
+        total_pss += _pss_proc(pid)
         todo.extend(c for c, p in parent.items() if p == pid)
-    return total
+    return total_rss, total_pss
 
 
-def _tree_rss_psutil(root: int, cpu: dict[int, tuple[float, float]] | None = None) -> int:
-    """RSS in bytes of ``root`` and its descendants; records CPU seconds per pid in ``cpu``."""
+def _tree_psutil(root: int, cpu: dict[int, tuple[float, float]]) -> tuple[int, int]:
+    """(RSS, PSS) in bytes of ``root`` and its descendants; CPU seconds per pid into ``cpu``."""
     import psutil
 
     me = psutil.Process(root)
-    total = 0
+    total_rss = total_pss = 0
     for proc in [me, *me.children(recursive=True)]:
         try:
-            total += proc.memory_info().rss
-            if cpu is not None:
-                t = proc.cpu_times()
-                used = t.user + t.system
-                cpu[proc.pid] = (cpu.get(proc.pid, (used, used))[0], used)
+            total_rss += proc.memory_info().rss
+            total_pss += _pss_proc(proc.pid)
+            t = proc.cpu_times()
+            used = t.user + t.system
+            cpu[proc.pid] = (cpu.get(proc.pid, (used, used))[0], used)
         except psutil.Error:
             pass
-    return total
+    return total_rss, total_pss
 
 
 class PeakMemory:
-    """Samples the RSS of this process tree in a thread; ``peak`` in bytes.
+    """Samples the memory of this process tree in a thread.
 
-    With psutil it also sums the CPU seconds the tree used while sampling (``cpu``; None
-    without psutil), which shows how much of the wall time went to waiting for a busy machine.
+    ``peak_pss`` is the largest sum of proportional set sizes (each shared page divided among
+    the processes that share it: the memory the tree really holds; forked workers share most
+    of their pages with this process); ``peak_rss`` the largest sum of resident set sizes
+    (shared pages counted once per process: an upper bound). With psutil it also sums the CPU
+    seconds the tree used while sampling (``cpu``; None without psutil), which shows how much
+    of the wall time went to waiting for a busy machine.
     """
 
-    def __init__(self, every: float = 0.05) -> None:
+    def __init__(self, every: float = 0.1) -> None:
         self._cpu: dict[int, tuple[float, float]] = {}
         try:
             import psutil  # noqa: F401
 
-            self._measure = lambda pid: _tree_rss_psutil(pid, self._cpu)
+            self._measure = lambda pid: _tree_psutil(pid, self._cpu)
             self.method = "psutil"
         except ImportError:
-            self._measure, self.method = _tree_rss_proc, "/proc"
-        self._every, self.peak = every, 0
+            self._measure, self.method = _tree_proc, "/proc"
+        self._every, self.peak_rss, self.peak_pss = every, 0, 0
         self._stop = threading.Event()
         self._thread = threading.Thread(target=self._run, daemon=True)
 
@@ -145,20 +166,24 @@ class PeakMemory:
             return None
         return sum(last - first for first, last in self._cpu.values())
 
+    def _sample(self) -> None:
+        rss, pss = self._measure(os.getpid())
+        self.peak_rss, self.peak_pss = max(self.peak_rss, rss), max(self.peak_pss, pss)
+
     def _run(self) -> None:
         while not self._stop.is_set():
-            self.peak = max(self.peak, self._measure(os.getpid()))
+            self._sample()
             self._stop.wait(self._every)
 
     def __enter__(self) -> PeakMemory:
-        self.peak = self._measure(os.getpid())
+        self._sample()
         self._thread.start()
         return self
 
     def __exit__(self, *exc: object) -> None:
         self._stop.set()
         self._thread.join()
-        self.peak = max(self.peak, self._measure(os.getpid()))
+        self._sample()
 
 
 # ---------------------------------------------------------------------------------------------
@@ -188,7 +213,8 @@ def run(path: Path, out: Path, label: str, **engine) -> dict:
         wall = time.perf_counter() - start
     return {
         "wall": wall,
-        "peak": mem.peak,
+        "peak_pss": mem.peak_pss,
+        "peak_rss": mem.peak_rss,
         "cpu": mem.cpu,
         "method": mem.method,
         "series": done,
@@ -260,7 +286,8 @@ def main() -> None:
 
     row("wall time (s)", [results[n]["wall"] for n in names], ".1f")
     row("ms per series", [1000 * results[n]["wall"] / max(results[n]["series"], 1) for n in names], ".0f")
-    row("peak memory, all (MB)", [results[n]["peak"] / 2**20 for n in names], ".0f")
+    row("peak memory, RSS sum (MB)", [results[n]["peak_rss"] / 2**20 for n in names], ".0f")
+    row("peak memory, PSS sum (MB)", [results[n]["peak_pss"] / 2**20 for n in names], ".0f")
     if all(results[n]["cpu"] is not None for n in names):
         row("CPU s, all processes", [results[n]["cpu"] for n in names], ".1f")
         row("CPU ms per series", [1000 * results[n]["cpu"] / max(results[n]["series"], 1) for n in names], ".0f")
@@ -270,7 +297,10 @@ def main() -> None:
     if len(names) == 2:
         same = results["local"]["sha256"] == results["Dask"]["sha256"]
         print(f"Records identical (JSON SHA-256): {'yes' if same else 'NO'}")
-    print(f"Memory sampled with {results['local']['method']} (sum of RSS over the process tree).")
+    print(
+        f"Memory of this process and all its descendants, sampled every 0.1 s with "
+        f"{results['local']['method']}: RSS counts shared pages once per process (upper bound), PSS splits them."
+    )
     print(
         f"Targets (1000 series, 2 workers): wall <= 60 s, peak memory < 1536 MB. "
         f"Projected at this rate for 1000 series: "
