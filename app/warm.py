@@ -21,13 +21,15 @@ import forecasting_core as fc
 log = logging.getLogger(__name__)
 
 
-def prepare_demo(server: Flask) -> list[str]:
+def prepare_demo(server: Flask, limit: int | None = None) -> list[str]:
     """Fill the result cache with the demo dataset's default comparisons.
 
     Parameters
     ----------
     server : flask.Flask
         The app's server (``create_app(...).server``).
+    limit : int, optional
+        Prepare only the first ``limit`` series (the default series first); None: all.
 
     Returns
     -------
@@ -49,7 +51,7 @@ def prepare_demo(server: Flask) -> list[str]:
             return done
         names = list(store.load_table(first["dataset_id"]).series)
         names.remove(first["series"])
-        for name in [first["series"], *names]:
+        for name in [first["series"], *names][:limit]:
             sel = resolve_selection({"dataset_id": first["dataset_id"], "series": name}, store)
             key = comparison_key(sel)
             try:

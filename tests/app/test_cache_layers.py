@@ -259,3 +259,21 @@ def test_annual_data_has_one_cache_entry_whether_the_seasonal_box_is_ticked(app,
         comparison_for(ticked)
         comparison_for(unticked)
     assert calls == ["compare_models", "run_hindcast"]
+
+
+def test_the_demo_prepared_at_start_makes_a_first_visit_a_cache_hit(tmp_path, calls):
+    # the server's background start-up work (app.warm) on the demo's default series
+    from app.analysis import comparison_for, search_for
+    from app.state import resolve_selection
+    from app.warm import prepare_demo
+
+    demo_app = create_app({"DATA_DIR": str(tmp_path / "demo"), "CACHE_TYPE": "SimpleCache"})
+    done = prepare_demo(demo_app.server, limit=1)
+    with demo_app.server.test_request_context():
+        first = resolve_selection(None)
+        assert done == [first["series"]]
+        assert calls.count("compare_models") == 1
+        calls.clear()
+        comparison_for(first)
+        search_for(first)
+    assert calls == []
