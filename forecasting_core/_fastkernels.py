@@ -88,12 +88,33 @@ def _harvey_loglik_py(w: np.ndarray, phi: np.ndarray, theta: np.ndarray) -> tupl
     K = np.empty(r)
     row0 = np.empty(r)
     TP = np.empty((r, r))
+    Pold = P.copy()
     ssq = 0.0
     sumlog = 0.0
     nobs = 0
+    # Once the predicted covariance stops changing (the Riccati recursion has converged, to
+    # 1e-13 of F), F and the gain are constant: only the state is updated from then on, until
+    # a missing value makes the covariance move again.
+    steady = False
+    Fs = 0.0
+    logFs = 0.0
     for t in range(w.shape[0]):
         y = w[t]
-        if not math.isnan(y):
+        observed = not math.isnan(y)
+        if steady and observed:
+            v = y - a[0]
+            for i in range(r):
+                a[i] += K[i] * v
+            ssq += v * v / Fs
+            sumlog += logFs
+            nobs += 1
+            a0 = a[0]
+            for i in range(r - 1):
+                a[i] = ph[i] * a0 + a[i + 1]
+            a[r - 1] = ph[r - 1] * a0
+            continue
+        steady = False
+        if observed:
             F = P[0, 0]
             if not F > 0.0:
                 return math.inf, math.inf, 0
@@ -121,6 +142,27 @@ def _harvey_loglik_py(w: np.ndarray, phi: np.ndarray, theta: np.ndarray) -> tupl
         for i in range(r):
             for j in range(r):
                 P[i, j] = TP[i, 0] * ph[j] + (TP[i, j + 1] if j + 1 < r else 0.0) + R[i] * R[j]
+        # test for convergence every fourth step only (the comparison costs a third of a step)
+        phase = t % 4
+        if phase == 2:
+            for i in range(r):
+                for j in range(r):
+                    Pold[i, j] = P[i, j]
+            continue
+        if phase != 3:
+            continue
+        change = math.inf if not observed else 0.0
+        for i in range(r):
+            for j in range(r):
+                diff = abs(P[i, j] - Pold[i, j])
+                if diff > change:
+                    change = diff
+        if observed and P[0, 0] > 0.0 and change <= 1e-13 * P[0, 0]:
+            steady = True
+            Fs = P[0, 0]
+            logFs = math.log(Fs)
+            for i in range(r):
+                K[i] = P[i, 0] / Fs
     return ssq, sumlog, nobs
 
 

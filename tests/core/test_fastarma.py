@@ -100,3 +100,17 @@ def test_pure_python_filter_gives_the_same_numbers_as_the_compiled_one():
     plain = fa._harvey_loglik_py(w, phi, theta)
     np.testing.assert_allclose(compiled[:2], plain[:2], rtol=1e-12)
     assert compiled[2] == plain[2] == 59
+
+
+@pytest.mark.parametrize("gaps", [(), (300,), (150, 151, 390)])
+def test_steady_state_filter_keeps_the_exact_likelihood_on_long_series(gaps):
+    # After the covariance converges the filter only updates the state; a late gap must
+    # restart the covariance recursion. Reference: statsmodels' loglike at the same parameters.
+    rng = np.random.default_rng(13)
+    z = lfilter([1.0, 0.5], [1.0, -0.6, 0.2], rng.normal(size=450))[50:]
+    z[list(gaps)] = np.nan
+    phi, theta, sigma2 = np.array([0.6, -0.2]), np.array([0.5]), 1.3
+    ssq, sumlog, n = fa._harvey_loglik(z, phi, theta)
+    ours = -0.5 * (n * np.log(2 * np.pi * sigma2) + sumlog + ssq / sigma2)
+    model = sm.tsa.arima.ARIMA(z, order=(2, 0, 1), trend="n")
+    assert ours == pytest.approx(model.loglike(np.r_[phi, theta, sigma2]), abs=1e-8)
