@@ -44,8 +44,8 @@ from dash import _callback as _dash_callback
 from flask import Flask
 
 import forecasting_core as fc
-from app.api import register_api
 from app.access import LOGOUT_PATH, install_access
+from app.api import register_api
 from app.cache import init_cache
 from app.errors import install_error_handlers
 from app.state import SELECTION_ID, TRANSFORM_LABELS, resolve_selection
@@ -74,7 +74,7 @@ _INDEX = """<!DOCTYPE html>
     <head>
         {%metas%}
         <title>{%title%}</title>
-        <link rel="icon" type="image/svg+xml" href="{%app_entry_path%}assets/haulcast-mark.svg">
+        <link rel="icon" type="image/svg+xml" href="/assets/haulcast-mark.svg">
         {%css%}
     </head>
     <body>
