@@ -19,7 +19,8 @@ from collections.abc import Mapping
 import numpy as np
 
 from forecasting_core._fastarma import admissible, difference, fit_arma, to_params, to_start
-from forecasting_core._fastkernels import _arima_filter, _expand
+from forecasting_core._fastfilter import _arima_filter
+from forecasting_core._fastkernels import _expand
 
 __all__ = ["arima_forecast", "refit_params"]
 

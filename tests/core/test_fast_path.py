@@ -227,10 +227,16 @@ def test_seasonal_model_comparison_matches_statsmodels():
 
 def test_warm_up_compiles_everything_a_comparison_needs():
     """After warm_up no request compiles: every kernel signature a comparison uses exists."""
+    from forecasting_core import _fastfilter as ff
     from forecasting_core import _fastkernels as fk
 
     fc.warm_up()
-    kernels = [getattr(fk, name) for name in dir(fk) if name.startswith("_") and hasattr(getattr(fk, name), "signatures")]
+    kernels = [
+        getattr(mod, name)
+        for mod in (fk, ff)
+        for name in dir(mod)
+        if name.startswith("_") and hasattr(getattr(mod, name), "signatures")
+    ]
     if not fk.HAVE_NUMBA:
         pytest.skip("numba is not installed: the plain-numpy kernels never compile")
     for kernel in kernels:
