@@ -178,14 +178,16 @@ def create_app(config: Mapping[str, Any] | None = None) -> dash.Dash:
 
 
 @functools.cache
-def _page_callbacks() -> tuple[tuple[Any, ...], tuple[tuple[str, Any], ...]]:
+def _page_callbacks() -> tuple[tuple[Any, ...], tuple[tuple[str, Any], ...], tuple[str, ...]]:
     """Import the page modules once per process and take their ``dash.callback`` registrations.
 
-    Dash keeps ``dash.callback`` registrations in process-wide lists that the first app to
-    serve a request consumes. Taking them here and handing each app its own copy lets
-    ``create_app`` be called more than once in a process (tests do).
+    Dash keeps ``dash.callback`` registrations, and the JavaScript of inline
+    ``clientside_callback`` functions, in process-wide lists that the first app to serve a
+    request consumes. Taking them here and handing each app its own copy lets ``create_app``
+    be called more than once in a process (tests do).
     """
     before_list = len(_dash_callback.GLOBAL_CALLBACK_LIST)
+    before_scripts = len(_dash_callback.GLOBAL_INLINE_SCRIPTS)
     before_keys = set(_dash_callback.GLOBAL_CALLBACK_MAP)
     for module_name, path, name, step in (HOME_PAGE, *PAGES):
         full = f"app.pages.{module_name}"
@@ -220,14 +222,17 @@ def _page_callbacks() -> tuple[tuple[Any, ...], tuple[tuple[str, Any], ...]]:
         for k in list(_dash_callback.GLOBAL_CALLBACK_MAP)
         if k not in before_keys
     )
-    return new_list, new_map
+    new_scripts = tuple(_dash_callback.GLOBAL_INLINE_SCRIPTS[before_scripts:])
+    del _dash_callback.GLOBAL_INLINE_SCRIPTS[before_scripts:]
+    return new_list, new_map, new_scripts
 
 
 def _attach_pages(app: dash.Dash) -> None:
-    callbacks, callback_map = _page_callbacks()
+    callbacks, callback_map, scripts = _page_callbacks()
     for key, spec in callback_map:
         app.callback_map[key] = spec
     app._callback_list.extend(callbacks)  # noqa: SLF001 - see _page_callbacks
+    app._inline_scripts.extend(scripts)  # noqa: SLF001 - see _page_callbacks
 
 
 def _not_found_layout() -> html.Div:

@@ -111,6 +111,20 @@ def test_the_factory_can_build_several_apps_with_all_their_callbacks(tmp_path):
     assert any("intake-series-graph.figure" in o for o in outputs)
 
 
+def test_every_app_serves_the_javascript_of_the_inline_clientside_callbacks(tmp_path):
+    # Dash hands the inline clientside functions to the first app that renders a page and
+    # empties its global list; a second app without them fails in the browser with
+    # "Cannot read properties of undefined (reading 'apply')".
+    pages = []
+    for name in ("a", "b"):
+        app = create_app({"DATA_DIR": str(tmp_path / name), "LOAD_SAMPLES": False})
+        pages.append(app.server.test_client().get("/board").get_data(as_text=True))
+    for html_text in pages:
+        assert "board-save-name" in html_text or "dash_clientside" in html_text
+        assert html_text.count("window.dash_clientside") >= 3
+    assert pages[0].count("<script>") == pages[1].count("<script>")
+
+
 def test_samples_load_by_default_and_can_be_left_out(app, tmp_path):
     assert len(app.server.extensions["haulcast"]["store"].list()) == len(
         list((ROOT / "sample_data").glob("*.csv"))

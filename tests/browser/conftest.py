@@ -9,7 +9,7 @@ Fixtures for every browser test module:
 
 ``app_url``       base URL of the live server, e.g. ``http://127.0.0.1:41234``
 ``live_app``      the Dash app behind it (``live_app.server.extensions["haulcast"]["store"]``)
-``browser``       the Playwright Chromium browser (session-wide)
+``browser``       the Playwright Chromium browser (session-wide; in ``tests/conftest.py``)
 ``new_page``      factory: ``new_page(**context_kwargs) -> Page`` in a fresh context
 ``page``          one fresh page
 ``screenshot``    ``screenshot(page, name)`` saves ``test-artifacts/screens/NAME.png``
@@ -25,7 +25,6 @@ Never downloads a browser: Chromium must be installed (``make test`` installs De
 from __future__ import annotations
 
 import re
-import shutil
 import threading
 from collections.abc import Callable, Iterator
 from pathlib import Path
@@ -35,16 +34,6 @@ import pytest
 
 ROOT = Path(__file__).resolve().parents[2]
 SCREENS = ROOT / "test-artifacts" / "screens"
-CHROMIUM = Path("/usr/bin/chromium")
-CHROMIUM_ARGS = [
-    "--no-sandbox",
-    "--disable-gpu",
-    "--disable-background-networking",
-    "--disable-component-update",
-    "--disable-sync",
-    "--no-first-run",
-    "--disable-quic",
-]
 #: Milliseconds Playwright waits for a selector or an expectation.
 TIMEOUT_MS = 20_000
 PAGE_TITLES = {"/intake": "Intake", "/bench": "Model Bench", "/board": "Forecast Board"}
@@ -109,24 +98,6 @@ def app_url(live_app: Any) -> str:
 # ---------------------------------------------------------------------------------------------
 # The browser
 # ---------------------------------------------------------------------------------------------
-
-
-@pytest.fixture(scope="session")
-def browser() -> Iterator[Any]:
-    """Debian's Chromium driven by Playwright (never a downloaded browser)."""
-    executable = str(CHROMIUM) if CHROMIUM.exists() else shutil.which("chromium")
-    if not executable:
-        pytest.skip("Debian's chromium is not installed (sudo apt-get install -y chromium)")
-    from playwright.sync_api import sync_playwright
-
-    with sync_playwright() as pw:
-        chromium = pw.chromium.launch(
-            executable_path=str(executable), args=CHROMIUM_ARGS, headless=True
-        )
-        try:
-            yield chromium
-        finally:
-            chromium.close()
 
 
 class PageFactory:

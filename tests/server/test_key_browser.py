@@ -3,39 +3,15 @@ then the whole dashboard working on the cookie alone, then forgetting the key.""
 
 from __future__ import annotations
 
-import shutil
-from pathlib import Path
-
 import pytest
 from conftest import KEY
 
 pytestmark = [pytest.mark.server, pytest.mark.browser]
 
-CHROMIUM = Path("/usr/bin/chromium")
 
-
-@pytest.fixture(scope="module")
-def chromium():
-    executable = str(CHROMIUM) if CHROMIUM.exists() else shutil.which("chromium")
-    if not executable:
-        pytest.skip("Debian's chromium is not installed (sudo apt-get install -y chromium)")
-    from playwright.sync_api import sync_playwright
-
-    with sync_playwright() as pw:
-        browser = pw.chromium.launch(
-            executable_path=executable,
-            args=["--no-sandbox", "--disable-gpu", "--disable-background-networking"],
-            headless=True,
-        )
-        try:
-            yield browser
-        finally:
-            browser.close()
-
-
-def test_the_key_form_lets_a_browser_in_and_forgetting_locks_it_out(keyed_server, chromium):
+def test_the_key_form_lets_a_browser_in_and_forgetting_locks_it_out(keyed_server, browser):
     base = f"http://127.0.0.1:{keyed_server.port}"
-    context = chromium.new_context()
+    context = browser.new_context()
     page = context.new_page()
     page.set_default_timeout(30_000)
     refused_after_login: list[str] = []
