@@ -30,6 +30,7 @@ from app.store_checks import (
     check_json,
     check_status,
     check_text,
+    duplicate_signoff_message,
     published_message,
 )
 from app.store_db import IMMUTABLE, now_utc
@@ -271,7 +272,20 @@ class AnalysesMixin:
         return self.save_analysis(**fields, author=author, parent_id=analysis_id)
 
     def add_signoff(self, analysis_id: str, *, name: str, role: str, note: str = "") -> Analysis:
-        """Sign off a published analysis; return it with the new sign-off last."""
+        """Sign off a published analysis; return it with the new sign-off last.
+
+        One person signs off one analysis once in a role: a sign-off with the name and role
+        (compared ignoring case) of an earlier one on the same analysis is refused, whatever
+        the time between them (a double click, a resent request, a retry after a timeout).
+        The check and the insert are one write transaction, so two requests at once cannot
+        both pass.
+
+        Raises
+        ------
+        forecasting_core.InputError
+            When a field is missing or too long, the analysis is unknown or a draft, or this
+            name already signed it off in this role.
+        """
         check_analysis_id(analysis_id)
         name = check_text(name, "name")
         role = check_text(role, "role")
@@ -287,6 +301,15 @@ class AnalysesMixin:
                     f"analysis {analysis_id} is a draft; only published analyses can be signed "
                     "off. Publish it first."
                 )
+            for done_name, done_role, done_at in tx.execute(
+                "SELECT name, role, signed_at FROM signoffs WHERE analysis_id = ?",
+                (analysis_id,),
+            ):
+                if (done_name.casefold(), done_role.casefold()) == (
+                    name.casefold(),
+                    role.casefold(),
+                ):
+                    raise fc.InputError(duplicate_signoff_message(done_name, done_role, done_at))
             tx.execute(
                 "INSERT INTO signoffs (analysis_id, name, role, note, signed_at)"
                 " VALUES (?, ?, ?, ?, ?)",

@@ -24,6 +24,7 @@ __all__ = [
     "check_json",
     "check_status",
     "check_text",
+    "duplicate_signoff_message",
     "published_message",
 ]
 
@@ -130,4 +131,16 @@ def published_message(analysis_id: str) -> str:
     return (
         f"analysis {analysis_id} is published and cannot be changed. "
         "Revise it to make a new version."
+    )
+
+
+#: The start of the store's refusal of a repeated sign-off (see ``duplicate_signoff_message``).
+DUPLICATE_SIGNOFF = "already signed off this analysis as"
+
+
+def duplicate_signoff_message(name: str, role: str, signed_at: str) -> str:
+    """The plain refusal of a second sign-off with the same name and role."""
+    return (
+        f"{name} {DUPLICATE_SIGNOFF} {role} (at {signed_at}); a second sign-off in the same "
+        "role is not recorded. Use another role, or revise the analysis for a new version."
     )

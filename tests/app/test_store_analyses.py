@@ -253,6 +253,31 @@ def test_a_draft_cannot_be_signed_off(store, draft):
         store.add_signoff(draft.id, name="Dee", role="lead", note="")
 
 
+@pytest.mark.parametrize(
+    ("name", "role", "note"),
+    [
+        ("Dee Ola", "stock lead", ""),  # a double click: the second request has the note cleared
+        ("Dee Ola", "stock lead", "Bands checked."),  # the same request sent twice
+        ("dee ola", "Stock Lead", "again"),  # case does not make another person or role
+    ],
+)
+def test_a_second_sign_off_with_the_same_name_and_role_is_refused(store, draft, name, role, note):
+    store.publish(draft.id, author="Ben")
+    store.add_signoff(draft.id, name="Dee Ola", role="stock lead", note="Bands checked.")
+    with pytest.raises(
+        fc.InputError, match="Dee Ola already signed off this analysis as stock lead"
+    ):
+        store.add_signoff(draft.id, name=name, role=role, note=note)
+    assert len(store.get_analysis(draft.id).signoffs) == 1
+
+
+def test_the_same_person_may_sign_off_in_another_role(store, draft):
+    store.publish(draft.id, author="Ben")
+    store.add_signoff(draft.id, name="Dee Ola", role="stock lead", note="")
+    signed = store.add_signoff(draft.id, name="Dee Ola", role="manager", note="")
+    assert [s.role for s in signed.signoffs] == ["stock lead", "manager"]
+
+
 def test_a_note_keeps_its_line_breaks(store, draft):
     store.publish(draft.id, author="Ben")
     signed = store.add_signoff(draft.id, name="Dee", role="lead", note="line one\nline two")
