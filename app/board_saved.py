@@ -12,9 +12,10 @@ from __future__ import annotations
 
 import time
 from collections.abc import Mapping
+from datetime import UTC, datetime
 from typing import Any
 
-from dash import Input, Output, State, callback, clientside_callback
+from dash import Input, Output, State, callback, clientside_callback, no_update
 from dash.exceptions import PreventUpdate
 
 import forecasting_core as fc
@@ -30,6 +31,7 @@ from app.saved_views import (
     status_panel,
 )
 from app.state import SELECTION_ID
+from app.store_checks import DUPLICATE_SIGNOFF
 from app.ui import alert, guarded
 
 # ---------------------------------------------------------------------------------------------
@@ -91,14 +93,13 @@ def open_analysis(opened: Mapping[str, Any] | None, data: Mapping[str, Any] | No
     return sel
 
 
-# The name typed last in this browser (localStorage) into the name boxes, without a round trip.
+# The author name saved last in this browser (localStorage) into the Save box, without a round
+# trip. The sign-off Name box starts empty: an analyst is not invited to sign off their own work.
 clientside_callback(
     """function (_mount, author) {
-        var name = (author && typeof author.name === "string") ? author.name : "";
-        return [name, name];
+        return (author && typeof author.name === "string") ? author.name : "";
     }""",
     Output("board-save-name", "value"),
-    Output("board-signoff-name", "value"),
     Input("board-mount", "data"),
     State(AUTHOR_ID, "data"),
 )
@@ -305,10 +306,37 @@ def publish(
     ]
 
 
+#: Seconds within which a repeat of the last sign-off is taken for the second click of a
+#: double click (answered as the first was) rather than a new request.
+REPEAT_SECONDS = 30.0
+
+
+def just_signed(analysis: Any, name: str | None = None, role: str | None = None) -> bool:
+    """Whether ``analysis``' last sign-off is under ``REPEAT_SECONDS`` old (and, when given,
+    has this name and role, ignoring case)."""
+    if not analysis.signoffs:
+        return False
+    last = analysis.signoffs[-1]
+    if name is not None and (last.name.casefold(), last.role.casefold()) != (
+        name.casefold(),
+        str(role).casefold(),
+    ):
+        return False
+    try:
+        at = datetime.fromisoformat(last.signed_at)
+    except ValueError:
+        return False
+    if at.tzinfo is None:
+        at = at.replace(tzinfo=UTC)
+    return 0 <= (datetime.now(UTC) - at).total_seconds() < REPEAT_SECONDS
+
+
 @callback(
     Output(OPEN_ID, "data", allow_duplicate=True),
     Output(AUTHOR_ID, "data", allow_duplicate=True),
     Output("board-saved-msg", "children", allow_duplicate=True),
+    Output("board-signoff-name", "value"),
+    Output("board-signoff-role", "value"),
     Output("board-signoff-note", "value"),
     Input("board-signoff", "n_clicks"),
     State("board-signoff-name", "value"),
@@ -318,7 +346,7 @@ def publish(
     State(OPEN_ID, "data"),
     prevent_initial_call=True,
 )
-@guarded("signing off the analysis", outputs=4, alert_at=2)
+@guarded("signing off the analysis", outputs=6, alert_at=2)
 def sign_off(
     n: int,
     name: Any,
@@ -331,15 +359,26 @@ def sign_off(
 
     if not n:
         raise PreventUpdate
+    store = get_store()
+    analysis, sel = _current(data, opened, store)
+    if not any(str(v or "").strip() for v in (name, role, note)) and just_signed(analysis):
+        # the second click of a double click, sent after the first cleared the form
+        raise PreventUpdate
     who = required(name, "Name")
     role = required(role, "Role", 80)
     note = optional(note, "Note", 500)
-    store = get_store()
-    analysis, sel = _current(data, opened, store)
-    done = store.add_signoff(analysis.id, name=who, role=role, note=note)
+    try:
+        done = store.add_signoff(analysis.id, name=who, role=role, note=note)
+    except fc.InputError as err:
+        if DUPLICATE_SIGNOFF not in str(err) or not just_signed(analysis, who, role):
+            raise
+        done = analysis  # the same sign-off sent twice: answered as the first one was
+    # the form is cleared: the next sign-off is someone else's (the author name is not touched)
     return [
         opened_store(done, sel),
-        {"name": who},
+        no_update,
         alert(f"Signed off by {who} ({role}).", "ok", title="Signed off"),
+        "",
+        "",
         "",
     ]

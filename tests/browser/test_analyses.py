@@ -200,7 +200,8 @@ def test_saving_needs_a_name_and_the_name_is_remembered_in_this_browser(
     open_page(other, "/board", settle=False)
     _wait_board(other, settle)
     expect(other.locator("#board-save-name")).to_have_value("Cleo Coder")
-    expect(other.locator("#board-signoff-name")).to_have_value("Cleo Coder")
+    # the sign-off name is not filled in: nobody is invited to sign off their own work
+    expect(other.locator("#board-signoff-name")).to_have_value("")
 
 
 def test_a_broken_analysis_link_says_so_and_shows_the_board_with_its_record(
@@ -228,3 +229,68 @@ def test_home_page_groups_by_stock_and_says_when_nothing_matches(page, open_page
     page.fill("#home-search", "no-such-stock-" + uuid.uuid4().hex[:6])
     expect(page.locator("#home-empty")).to_contain_text("No saved analysis matches")
     expect(page.locator("#home-count")).to_contain_text("0 analyses")
+
+
+def _saved_demo(store, title: str, *, publish: bool) -> str:
+    """A demo analysis saved (and published) straight through the store; its id."""
+    demo = next(a for a in store.list_analyses(status="published") if a.version == 1)
+    new = store.save_analysis(
+        dataset_id=demo.dataset_id,
+        series=demo.series,
+        settings=demo.settings,
+        model=demo.model,
+        forecast=demo.forecast,
+        author="Ana Analyst",
+        title=title,
+        season=demo.season,
+    )
+    if publish:
+        store.publish(new.id, author="Ana Analyst")
+    return new.id
+
+
+def test_double_clicking_sign_off_records_one_sign_off_and_the_name_box_starts_empty(
+    new_page, open_page, settle, live_app
+):
+    store = live_app.server.extensions["haulcast"]["store"]
+    analysis_id = _saved_demo(store, f"Double click {uuid.uuid4().hex[:8]}", publish=True)
+    page = new_page()
+    # this browser remembers an author name from saving
+    open_page(page, "/board", settle=False)
+    page.evaluate("localStorage.setItem('board-author', JSON.stringify({name: 'Ana Analyst'}))")
+    open_page(page, f"/board?analysis={analysis_id}", settle=False)
+    _wait_board(page, settle)
+    expect(page.locator("#board-signoff-box")).to_be_visible()
+    # the author's name is kept for Save, but nobody is invited to sign off their own work
+    expect(page.locator("#board-save-name")).to_have_value("Ana Analyst")
+    expect(page.locator("#board-signoff-name")).to_have_value("")
+    page.fill("#board-signoff-name", "Ben Manager")
+    page.fill("#board-signoff-role", "Stock manager")
+    page.fill("#board-signoff-note", "Fine")
+    page.dblclick("#board-signoff")
+    expect(page.locator("#board-signoffs li")).to_have_count(1)
+    settle(page)
+    page.wait_for_timeout(1500)
+    expect(page.locator("#board-signoffs li")).to_have_count(1)
+    assert len(store.get_analysis(analysis_id).signoffs) == 1
+    # the form is cleared after the sign-off
+    expect(page.locator("#board-signoff-name")).to_have_value("")
+    expect(page.locator("#board-signoff-note")).to_have_value("")
+
+
+def test_saving_a_new_version_puts_its_id_in_the_address_bar(new_page, open_page, settle, live_app):
+    store = live_app.server.extensions["haulcast"]["store"]
+    title = f"Address bar {uuid.uuid4().hex[:8]}"
+    v1 = _saved_demo(store, title, publish=True)
+    page = new_page()
+    open_page(page, f"/board?analysis={v1}", settle=False)
+    _wait_board(page, settle)
+    page.fill("#board-reference", "1")
+    page.press("#board-reference", "Enter")
+    expect(page.locator("#board-save")).to_have_text("Save as version 2")
+    settle(page)
+    page.fill("#board-save-name", "Ana Analyst")
+    page.click("#board-save")
+    expect(page.locator("#board-saved-version")).to_have_text("version 2")
+    v2 = _id_of(store, title, 2)
+    expect(page).to_have_url(f"{live_app.test_base_url}/board?analysis={v2}")
