@@ -7,6 +7,7 @@ on the layered result cache of :mod:`app.cache`.
 
 from __future__ import annotations
 
+from dataclasses import replace
 from typing import Any
 
 import forecasting_core as fc
@@ -64,7 +65,9 @@ def _hindcast_panels(dataset_id: str, series: str, settings: str, label: str, st
             unit=unit,
             series_name=comparison.series_name,
         )
-        skill_fig = figures.skill_figure(comparison.hindcast)
+        # the benchmarks on the origins where the chosen model also forecast (as the verdict)
+        beside = replace(comparison.hindcast, scores=comparison.hindcast.beside())
+        skill_fig = figures.skill_figure(beside)
     else:
         hc_fig = skill_fig = figures.blank_figure(260)
     return {"figures": [hc_fig.to_plotly_json(), skill_fig.to_plotly_json()], "replayed": replayed}

@@ -42,11 +42,13 @@ def skill_rows(comparison: fc.Comparison) -> list[dict[str, Any]]:
     """Rows of the hindcast skill table, one per model replayed."""
     if comparison.hindcast is None:
         return []
+    # every other model on the origins where the chosen one also forecast (as the verdict)
     return [
         {
             "id": s.model,
             "model": s.model,
             "kind": "ARIMA" if s.kind == "arima" else "benchmark",
+            "origins": s.origins,
             "mae": _num(s.mae),
             "rmse": _num(s.rmse),
             "mase": _num(s.mase),
@@ -55,7 +57,7 @@ def skill_rows(comparison: fc.Comparison) -> list[dict[str, Any]]:
             "is80": _num(s.interval_score80),
             "is95": _num(s.interval_score95),
         }
-        for s in comparison.hindcast.scores
+        for s in comparison.hindcast.beside()
     ]
 
 
@@ -155,6 +157,7 @@ def skill_table() -> dash_table.DataTable:
     columns = [
         {"name": "Model", "id": "model"},
         {"name": "Kind", "id": "kind"},
+        {"name": "Origins", "id": "origins", "type": "numeric", "format": _fixed(0)},
         {"name": "MAE", "id": "mae", "type": "numeric", "format": _fixed(1)},
         {"name": "RMSE", "id": "rmse", "type": "numeric", "format": _fixed(1)},
         {"name": "MASE", "id": "mase", "type": "numeric", "format": _fixed(3)},
@@ -217,27 +220,50 @@ def forecast_table(forecast: fc.Forecast, unit: str | None) -> html.Table:
 
 
 def benchmark_panel(comparison: fc.Comparison) -> Any:
-    """The benchmarks with their hindcast MASE and how the best ARIMA compares."""
+    """The benchmarks with their hindcast MASE and how the best ARIMA compares.
+
+    Each benchmark is scored on the origins where the best ARIMA's refit also gave a forecast
+    (the pair of :meth:`forecasting_core.Hindcast.versus`), so its MASE and the "x% better"
+    are the numbers the hindcast verdict compares; a note says over how many origins.
+    """
     hc = comparison.hindcast
-    best = hc.score(comparison.best.label) if hc else None
+    best_label = comparison.best.label
+    best = hc.score(best_label) if hc else None
     rows = []
+    counts: set[int] = set()
     for b in comparison.benchmarks:
-        score = hc.score(b.label) if hc else None
+        pair = hc.versus(b.label, best_label) if hc is not None and best is not None else None
+        if pair is not None and pair[0].forecasts:
+            mine, score = pair
+            counts.add(score.origins)
+        else:
+            mine, score = best, (hc.score(b.label) if hc else None)
         mase = score.mase if score else math.nan
-        if best is not None and score is not None and not math.isnan(best.mase) and score.mase:
-            change = 1.0 - best.mase / score.mase
+        if mine is not None and score is not None and not math.isnan(mine.mase) and score.mase:
+            change = 1.0 - mine.mase / score.mase
             vs = f"{abs(change) * 100:.0f}% {'better' if change > 0 else 'worse'}"
         else:
             vs = "\u2014"
         rows.append({"bench": b.label, "mase": "" if math.isnan(mase) else f"{mase:.3f}", "vs": vs})
+    notes = ["MASE below 1: better than the in-sample last-value forecast."]
+    if hc is not None and counts:
+        total = len(hc.origins)
+        k = max(counts) if len(counts) == 1 else None
+        if k == total:
+            notes.append(f"Scored over all {total} hindcast origins.")
+        else:
+            shown = (
+                f"{k} of {total}" if k is not None else f"{min(counts)} to {max(counts)} of {total}"
+            )
+            notes.append(
+                f"Scored on the {shown} hindcast origins where {best_label} and the benchmark "
+                "both gave a forecast, the same origins as the verdict."
+            )
     return [
         html_table(
             rows,
             [("bench", "Benchmark"), ("mase", "MASE"), ("vs", "Best ARIMA is")],
             numeric=("mase", "vs"),
         ),
-        html.P(
-            "MASE below 1: better than the in-sample last-value forecast.",
-            className="hc-figure-note",
-        ),
+        html.P(" ".join(notes), className="hc-figure-note"),
     ]

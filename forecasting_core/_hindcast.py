@@ -27,6 +27,9 @@ Conventions (each documented where it is used):
   (1 - alpha) band [l, u] and outcome x: (u - l) + 2/alpha (l - x) 1{x < l}
   + 2/alpha (x - u) 1{x > u}; reported as the mean over forecasts, original scale.
 * **Coverage**: percentage of outcomes inside the band, ends included.
+* **Comparisons** (the verdict, ``Hindcast.paired``): two models are compared only on the
+  forecasts (origin and step) both made, so an origin where one refit failed is left out of
+  both scores and the two numbers compared always cover the same origins.
 """
 
 from __future__ import annotations
@@ -178,7 +181,13 @@ def _fast_step(
     params = model.params
     if method == "refit":
         params, reason, warm[0] = refit_params(
-            z_train, model.order, model.seasonal_order, model.constant, model.params, ROOT_LIMIT, warm[0]
+            z_train,
+            model.order,
+            model.seasonal_order,
+            model.constant,
+            model.params,
+            ROOT_LIMIT,
+            warm[0],
         )
         if params is None:
             return reason
@@ -192,23 +201,19 @@ def _origin_positions(y: pd.Series, origins: int | None) -> np.ndarray:
     if origins is None:
         origins = min(MAX_ORIGINS_DEFAULT, n // 4)
         if origins < 1:
-            raise InputError(
-                f"a hindcast needs at least 4 observed values. Got {n} instead."
-            )
+            raise InputError(f"a hindcast needs at least 4 observed values. Got {n} instead.")
     if isinstance(origins, bool) or int(origins) != origins or not 1 <= origins <= len(possible):
         raise InputError(
             f"origins must be an integer from 1 to {len(possible)}. Got {origins!r} instead."
         )
-    return possible[-int(origins):]
+    return possible[-int(origins) :]
 
 
 def _label(model: Candidate | Benchmark) -> str:
     return model.label
 
 
-def _score(
-    label: str, kind: str, rows: pd.DataFrame, n_origins: int
-) -> SkillScore:
+def _score(label: str, kind: str, rows: pd.DataFrame, n_origins: int) -> SkillScore:
     if rows.empty:
         nan = math.nan
         return SkillScore(label, kind, 0, 0, nan, nan, nan, nan, nan, nan, nan)
@@ -247,8 +252,42 @@ def _mase_on(rows: pd.DataFrame) -> float:
     return float(np.mean(err[ok] / scale[ok])) if ok.any() else math.nan
 
 
+def _common_rows(table: pd.DataFrame, a: str, b: str) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """The rows of models ``a`` and ``b`` for the forecasts both made (same origin and step)."""
+    mine = table[table["model"] == a]
+    base = table[table["model"] == b]
+    # an inner join on (origin, step), without pandas' merge
+    mine_keys = list(zip(mine["origin"], mine["step"], strict=True))
+    base_keys = list(zip(base["origin"], base["step"], strict=True))
+    common = set(mine_keys) & set(base_keys)
+    mine = mine[np.array([k in common for k in mine_keys], dtype=bool)]
+    base = base[np.array([k in common for k in base_keys], dtype=bool)]
+    return mine, base
+
+
+def _paired_scores(
+    table: pd.DataFrame, models: Sequence[tuple[str, str]]
+) -> tuple[tuple[SkillScore, SkillScore], ...]:
+    """Every two models scored on the forecasts both made, the earlier of ``models`` first.
+
+    ``models`` holds (label, kind) pairs.
+    """
+    pairs = []
+    for i, (a, kind_a) in enumerate(models):
+        for b, kind_b in models[i + 1 :]:
+            mine, theirs = _common_rows(table, a, b)
+            k = int(mine["origin"].nunique())
+            pairs.append((_score(a, kind_a, mine, k), _score(b, kind_b, theirs, k)))
+    return tuple(pairs)
+
+
 def _verdict(
-    chosen: str, naive: str, table: pd.DataFrame, n_origins: int, skipped: list[str]
+    chosen: str,
+    naive: str,
+    table: pd.DataFrame,
+    n_origins: int,
+    skipped: list[str],
+    paired: Sequence[tuple[SkillScore, SkillScore]] = (),
 ) -> str:
     mine = table[table["model"] == chosen]
     if mine.empty:
@@ -261,15 +300,12 @@ def _verdict(
             f"The chosen model is the last value itself (MASE {_mase_on(mine):.2f} over "
             f"{mine['origin'].nunique()} origins)."
         )
-    base = table[table["model"] == naive]
-    # the forecasts both made (same origin and step): an inner join, without pandas' merge
-    mine_keys = list(zip(mine["origin"], mine["step"], strict=True))
-    base_keys = list(zip(base["origin"], base["step"], strict=True))
-    common = set(mine_keys) & set(base_keys)
-    mine = mine[np.array([k in common for k in mine_keys], dtype=bool)]
-    base = base[np.array([k in common for k in base_keys], dtype=bool)]
-    a, b = _mase_on(mine), _mase_on(base)
-    k = mine["origin"].nunique()
+    # the same pair of scores the benchmark table shows beside the model
+    pair = next((p for p in paired if (p[0].model, p[1].model) == (chosen, naive)), None)
+    if pair is None:
+        pair = _paired_scores(table, [(chosen, "arima"), (naive, "benchmark")])[0]
+    a, b = pair[0].mase, pair[1].mase
+    k = pair[0].origins
     where = f"over {k} origin{'s' if k != 1 else ''}"
     if not (math.isfinite(a) and math.isfinite(b)) or b == 0:
         text = f"{chosen} could not be compared with the last value on MASE {where}."
@@ -281,8 +317,7 @@ def _verdict(
         pct = 100.0 * (a / b - 1.0)
         worse = f"{pct:.0f}% worse" if pct >= 0.5 else "equal within 1%"
         text = (
-            f"{chosen} did not beat the last value on MASE {where} "
-            f"({a:.2f} vs {b:.2f}, {worse})."
+            f"{chosen} did not beat the last value on MASE {where} ({a:.2f} vs {b:.2f}, {worse})."
         )
     mine_skips = [s for s in skipped if s.startswith(chosen + " ")]
     if mine_skips:
@@ -335,7 +370,8 @@ def run_hindcast(
     -------
     Hindcast
         Scores in the order of ``models``; ``errors`` with one row per model, origin and
-        step; ``skipped`` naming every rejected refit; ``verdict`` one sentence.
+        step; ``skipped`` naming every rejected refit; ``verdict`` one sentence;
+        ``paired`` every two models scored on their common forecasts.
 
     Raises
     ------
@@ -344,7 +380,11 @@ def run_hindcast(
     """
     if method not in METHODS:
         raise InputError(f"method must be one of {', '.join(METHODS)}. Got {method!r} instead.")
-    if isinstance(horizon, bool) or not isinstance(horizon, int | np.integer) or not 1 <= horizon <= 30:
+    if (
+        isinstance(horizon, bool)
+        or not isinstance(horizon, int | np.integer)
+        or not 1 <= horizon <= 30
+    ):
         raise InputError(f"horizon must be an integer from 1 to 30. Got {horizon!r} instead.")
     horizon = int(horizon)
     seen: set[str] = set()
@@ -383,14 +423,20 @@ def run_hindcast(
             origin = time_label(y.index[t])
             steps = min(horizon, n - 1 - t)
             try:
-                got = None if z_all is None else _fast_step(model, z_all[: t + 1], steps, method, warm)
+                got = (
+                    None
+                    if z_all is None
+                    else _fast_step(model, z_all[: t + 1], steps, method, warm)
+                )
                 if isinstance(got, str):
                     skipped.append(f"{label} at origin {origin}: refit rejected ({got}).")
                     continue
                 if got is None:
                     fitted = _refit(model, train, method)
                     if isinstance(fitted, Candidate) and not fitted.ok:
-                        skipped.append(f"{label} at origin {origin}: refit rejected ({fitted.reason}).")
+                        skipped.append(
+                            f"{label} at origin {origin}: refit rejected ({fitted.reason})."
+                        )
                         continue
                 with np.errstate(over="ignore", invalid="ignore"):
                     mean_z, var_z = _predict(fitted, steps) if got is None else got
@@ -421,7 +467,9 @@ def run_hindcast(
         kind = "benchmark" if isinstance(model, Benchmark) else "arima"
         scores.append(_score(_label(model), kind, rows, int(rows["origin"].nunique())))
     origin_labels = tuple(time_label(y.index[t]) for t in positions)
-    verdict = _verdict(_label(models[0]), "last value", table, len(positions), skipped)
+    # every two models on the forecasts both made (their common origins)
+    paired = _paired_scores(table, [(s.model, s.kind) for s in scores])
+    verdict = _verdict(_label(models[0]), "last value", table, len(positions), skipped, paired)
     return Hindcast(
         origins=origin_labels,
         horizon=horizon,
@@ -430,4 +478,5 @@ def run_hindcast(
         method=METHODS[method],
         verdict=verdict,
         skipped=tuple(skipped),
+        paired=paired,
     )

@@ -177,7 +177,9 @@ class Benchmark:
     series: pd.Series = field(repr=False, compare=False)
 
     def to_dict(self) -> dict[str, Any]:
-        return _clean({"key": self.key, "label": self.label, "sigma2": self.sigma2, "drift": self.drift})
+        return _clean(
+            {"key": self.key, "label": self.label, "sigma2": self.sigma2, "drift": self.drift}
+        )
 
 
 @dataclass(frozen=True)
@@ -242,6 +244,10 @@ class Hindcast:
     skipped : tuple of str
         Refits that were rejected (or could not forecast) at an origin, left out of the
         scores: one plain sentence each, naming the model and the origin.
+    paired : tuple of tuple(SkillScore, SkillScore)
+        One pair for every two models (in the order of ``scores``, the earlier first): their
+        scores on the forecasts (origin and step) both made, so an origin where one refit
+        failed is left out of both sides. Empty when not computed.
     """
 
     origins: tuple[str, ...]
@@ -251,9 +257,54 @@ class Hindcast:
     method: str = "refit at every origin"
     verdict: str = ""
     skipped: tuple[str, ...] = ()
+    paired: tuple[tuple[SkillScore, SkillScore], ...] = ()
 
     def score(self, model: str) -> SkillScore | None:
         return next((s for s in self.scores if s.model == model), None)
+
+    @property
+    def chosen(self) -> str | None:
+        """Label of the chosen model (the first scored; the verdict is about it)."""
+        return self.scores[0].model if self.scores else None
+
+    def versus(self, other: str, model: str | None = None) -> tuple[SkillScore, SkillScore] | None:
+        """``model``'s and ``other``'s scores on the forecasts both made.
+
+        Parameters
+        ----------
+        other : str
+            Label of the model compared with, e.g. ``"last value"``.
+        model : str, optional
+            Label of the model compared; default the chosen one. With ``other`` = "last
+            value" and the chosen model this is the pair the verdict compares.
+
+        Returns
+        -------
+        tuple of SkillScore or None
+            ``(model's score, other's score)``, each with ``origins`` = the number of common
+            origins; None when the two are the same model or either was not replayed.
+        """
+        model = self.chosen if model is None else model
+        for a, b in self.paired:
+            if (a.model, b.model) == (model, other):
+                return a, b
+            if (a.model, b.model) == (other, model):
+                return b, a
+        return None
+
+    def beside(self, model: str | None = None) -> tuple[SkillScore, ...]:
+        """Scores for a table set beside ``model`` (default: the chosen one).
+
+        ``model``'s own score, and every other model scored on the forecasts ``model`` also
+        made, in the order of ``scores``. A model with no common forecast (or a hindcast
+        without pairs) keeps its own score.
+        """
+        model = self.chosen if model is None else model
+        out = []
+        for s in self.scores:
+            pair = None if s.model == model else self.versus(s.model, model)
+            out.append(pair[1] if pair is not None and pair[1].forecasts else s)
+        return tuple(out)
 
     def to_frame(self) -> pd.DataFrame:
         return pd.DataFrame([s.to_dict() for s in self.scores])
@@ -271,7 +322,9 @@ class Hindcast:
         )
 
     def summary(self) -> str:
-        lines = [f"Hindcast over {len(self.origins)} origins ({self.method}), horizon {self.horizon}"]
+        lines = [
+            f"Hindcast over {len(self.origins)} origins ({self.method}), horizon {self.horizon}"
+        ]
         for s in self.scores:
             lines.append(
                 f"  {s.model:34s} MASE {s.mase:6.3f}  RMSE {s.rmse:10.4g}  "
@@ -401,7 +454,17 @@ class Comparison:
                 "transform": self.transform.to_dict(),
                 "model": self.best.model_dict(),
                 "candidates": [
-                    {k: c.to_dict()[k] for k in ("label", "order", "seasonal_order", "aicc", "delta_aicc", "weight")}
+                    {
+                        k: c.to_dict()[k]
+                        for k in (
+                            "label",
+                            "order",
+                            "seasonal_order",
+                            "aicc",
+                            "delta_aicc",
+                            "weight",
+                        )
+                    }
                     for c in self.accepted
                 ],
                 "rejected": [{"label": c.label, "reason": c.reason} for c in self.rejected],
@@ -420,9 +483,13 @@ class Comparison:
             "Candidates (best 10 by AICc):",
         ]
         for c in self.accepted[:10]:
-            lines.append(f"  {c.label:36s} AICc {c.aicc:9.2f}  dAICc {c.delta_aicc:6.2f}  weight {c.weight:5.3f}")
+            lines.append(
+                f"  {c.label:36s} AICc {c.aicc:9.2f}  dAICc {c.delta_aicc:6.2f}  weight {c.weight:5.3f}"
+            )
         if self.rejected:
-            lines.append(f"Rejected: {len(self.rejected)} (e.g. {self.rejected[0].label}: {self.rejected[0].reason})")
+            lines.append(
+                f"Rejected: {len(self.rejected)} (e.g. {self.rejected[0].label}: {self.rejected[0].reason})"
+            )
         if self.hindcast:
             lines.append(self.hindcast.summary())
         if self.diagnostics:
@@ -484,7 +551,9 @@ class Forecast:
                         "mean": r["mean"],
                         "median": r["median"],
                         "intervals": {str(lv): [r[f"lo{lv}"], r[f"hi{lv}"]] for lv in self.levels},
-                        "prob_below_reference": r["prob_below_reference"] if self.reference is not None else None,
+                        "prob_below_reference": r["prob_below_reference"]
+                        if self.reference is not None
+                        else None,
                     }
                 )
             )
@@ -517,5 +586,7 @@ class Forecast:
         if 80 in self.levels:
             text += f"; 80% range {first['lo80']:.4g} to {first['hi80']:.4g}"
         if self.reference is not None:
-            text += f"; chance below {self.reference:.4g}: {100 * first['prob_below_reference']:.0f}%"
+            text += (
+                f"; chance below {self.reference:.4g}: {100 * first['prob_below_reference']:.0f}%"
+            )
         return text + f". Model: {self.model}."

@@ -174,10 +174,42 @@ def test_rejected_refit_is_recorded_skipped_and_named_in_the_verdict(monkeypatch
     # The last value is added for the verdict and scored on the same origins and steps.
     assert [x.model for x in h.scores] == ["ARIMA(0,1,0)", "last value"]
     # The stand-in forecasts the last value, so the two tie on the common origins.
-    assert h.verdict.startswith(
-        "ARIMA(0,1,0) did not beat the last value on MASE over 2 origins ("
-    )
+    assert h.verdict.startswith("ARIMA(0,1,0) did not beat the last value on MASE over 2 origins (")
     assert "equal within 1%" in h.verdict
+
+
+def test_failed_origin_is_left_out_of_both_sides_of_every_comparison(monkeypatch):
+    # The chosen stand-in forecasts the last value + 2 and its refit fails at origin 2006.
+    # Common origins 2005 and 2007 (horizon 2, Y8; scales as in the hand computation above):
+    #   chosen: 2005 forecasts 16 vs 17, 13 -> 1/2, 3/2; 2007 forecasts 15 vs 16 -> 1/2.5
+    #           MASE (0.5 + 1.5 + 0.4) / 3 = 0.8
+    #   last value: 2005 forecasts 14 -> 3/2, 1/2; 2007 forecasts 13 -> 3/2.5
+    #           MASE (1.5 + 0.5 + 1.2) / 3 = 3.2 / 3;  own score over all 3 origins 1.0945
+    #   1 - 0.8 / (3.2 / 3) = 25% better.
+    def fake_fit_order(y, order, seasonal_order, constant, spec, *, start_params=None):
+        if str(y.index[-1]) == "2006":
+            return _fake_candidate(y, "rejected", "did not converge")
+        return _fake_candidate(y)
+
+    def fake_predictive(model, steps):
+        return np.full(steps, float(model.series.iloc[-1]) + 2.0), np.arange(1.0, steps + 1)
+
+    monkeypatch.setattr(search_mod, "fit_order", fake_fit_order, raising=False)
+    monkeypatch.setattr(forecast_mod, "predictive", fake_predictive, raising=False)
+    h = run_hindcast(Y8, [_fake_candidate(Y8)], horizon=2, origins=3, engine="statsmodels")
+    assert h.score("last value").origins == 3  # its own score keeps every origin
+    mine, base = h.versus("last value")
+    assert (mine.origins, base.origins) == (2, 2)
+    assert (mine.forecasts, base.forecasts) == (3, 3)
+    assert mine.mase == pytest.approx(0.8)
+    assert base.mase == pytest.approx(3.2 / 3)
+    # the verdict quotes exactly this pair
+    assert "by 25% on MASE over 2 origins (0.80 vs 1.07)" in h.verdict
+    # a table beside the chosen model shows the benchmark on the same two origins
+    assert [s.origins for s in h.beside()] == [2, 2]
+    assert h.beside()[1] == base
+    # the pair read the other way round
+    assert h.versus("ARIMA(0,1,0)", model="last value") == (base, mine)
 
 
 def test_rejected_candidates_passed_in_are_not_scored():
@@ -251,7 +283,9 @@ def test_arima_hindcast_uses_only_data_up_to_each_origin(samples):
         ("plaice_t", (1, 0, 0), True),
     ],
 )
-def test_fixed_parameter_shortcut_agrees_with_refit_within_tolerance(samples, name, order, constant):
+def test_fixed_parameter_shortcut_agrees_with_refit_within_tolerance(
+    samples, name, order, constant
+):
     # Stated tolerance: medians within 6% and MASE within 10% of the refit's. Measured here:
     # 10 origins, horizon 5 on five sample series gave medians within 5% and MASE 0.5-4%
     # lower with fixed parameters (they have seen the later years, so they flatter the
@@ -279,7 +313,9 @@ def test_fixed_parameter_shortcut_agrees_with_refit_within_tolerance(samples, na
 def test_coverage_warning_flags_bands_that_were_too_narrow(cover80, cover95, forecasts, warns):
     from forecasting_core import SkillScore
 
-    score = SkillScore("ARIMA(1,0,0)", "arima", 10, forecasts, 1.0, 1.0, 1.0, cover80, cover95, 1.0, 1.0)
+    score = SkillScore(
+        "ARIMA(1,0,0)", "arima", 10, forecasts, 1.0, 1.0, 1.0, cover80, cover95, 1.0, 1.0
+    )
     text = score.coverage_warning()
     assert (text is not None) == warns
     if warns:
