@@ -363,10 +363,17 @@ def upload_area(mb: str) -> dcc.Upload:
 
 
 def decode_upload(contents: str) -> bytes:
-    """Bytes of a ``dcc.Upload`` data URL (``data:<type>;base64,<data>``)."""
-    _, _, data = str(contents).partition(",")
+    """Bytes of a ``dcc.Upload`` data URL (``data:<type>;base64,<data>``).
+
+    An empty file comes as ``data:`` or ``data:<type>;base64,`` and gives ``b""`` (the store
+    then says the file is empty).
+    """
+    text = str(contents)
+    _, comma, data = text.partition(",")
+    if not comma:
+        data = "" if text.startswith("data:") else text
     try:
-        return base64.b64decode(data or contents, validate=False)
+        return base64.b64decode(data, validate=False)
     except (binascii.Error, ValueError) as err:
         raise fc.InputError("the upload could not be decoded. Choose the file again.") from err
 

@@ -156,3 +156,11 @@ def test_transform_choice_updates_the_preview_and_goes_on_to_model_bench(page, o
     expect(page).to_have_url(re.compile(r"/bench$"))
     expect(page.locator("#hc-context-transform")).to_have_text("None")
     expect(page.locator("#hc-context-series")).to_have_text("hake_t")
+
+
+def test_an_empty_upload_says_the_file_is_empty(page, open_page, upload_file):
+    open_page(page, "/intake")
+    upload_file(page, "empty.csv", b"")
+    status = page.locator("#intake-upload-status [role=alert]")
+    expect(status).to_contain_text("the file is empty")
+    expect(status).not_to_contain_text("could not be decoded")
