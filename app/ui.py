@@ -105,10 +105,15 @@ def alert(message: Any, kind: str = "error", *, title: str | None = None) -> htm
     )
 
 
+#: The heading of a message about input the analyst can correct (an InputError).
+CHECK_TITLE = "Check this"
+
+
 def error_alert(err: BaseException, action: str) -> html.Div:
     """The alert for an exception raised while doing ``action`` (logged unless an InputError)."""
     if isinstance(err, InputError):
-        return alert(str(err), "error", title="Cannot use this input")
+        # something the analyst can correct: a calm heading, not one that reads like a fault
+        return alert(str(err), "error", title=CHECK_TITLE)
     logger.error("Callback failed while %s", action, exc_info=err)
     return alert(
         f"Something went wrong while {action} \u2014 the details are in the server log.",
