@@ -14,6 +14,7 @@ import io
 import math
 import re
 from collections.abc import Mapping, Sequence
+from dataclasses import replace
 from importlib import metadata
 from typing import Any
 
@@ -21,6 +22,7 @@ import pandas as pd
 import plotly.graph_objects as go
 
 from app.figures import graph_config
+from app.tables import table_decimals
 from app.wording import forecast_summary, hindcast_sentence, residual_report
 from forecasting_core import CAUTIONS, Comparison, Forecast, time_label
 
@@ -301,36 +303,155 @@ def _forecast_frame(forecast: Forecast) -> pd.DataFrame:
     return out
 
 
-def _skill_frame(comparison: Comparison) -> pd.DataFrame | None:
-    if comparison.hindcast is None:
+def _beside(comparison: Comparison | None, model: str) -> Comparison | None:
+    """``comparison`` with its hindcast scores set beside ``model`` (see ``Hindcast.beside``)."""
+    hc = comparison.hindcast if comparison is not None else None
+    if hc is None or hc.score(model) is None:
+        return comparison
+    return replace(comparison, hindcast=replace(hc, scores=hc.beside(model)))
+
+
+def _column(values: Sequence[Any], decimals: int | None = None) -> list[str]:
+    """One column's numbers with one number of decimals (from :func:`table_decimals`)."""
+    nums = []
+    for v in values:
+        try:
+            nums.append(float(v))
+        except (TypeError, ValueError):
+            nums.append(math.nan)
+    d = table_decimals(nums) if decimals is None else decimals
+    return ["" if not math.isfinite(v) else f"{v:,.{d}f}" for v in nums]
+
+
+def _skill_frame(comparison: Comparison, model: str | None = None) -> pd.DataFrame | None:
+    """The hindcast skill table beside ``model``: the others on the origins it forecast."""
+    hc = comparison.hindcast
+    if hc is None:
         return None
-    rows = [
-        {
-            "model": s.model,
-            "MAE": s.mae,
-            "RMSE": s.rmse,
-            "MASE": s.mase,
-            "80% coverage": f"{s.coverage80:.0f}%",
-            "95% coverage": f"{s.coverage95:.0f}%",
-            "interval score (95%)": s.interval_score95,
-        }
-        for s in comparison.hindcast.scores
-    ]
-    return pd.DataFrame(rows)
+    scores = hc.beside(model if model is not None and hc.score(model) else None)
+    out = pd.DataFrame({"model": [s.model for s in scores]})
+    out["origins"] = [str(s.origins) for s in scores]
+    out["MAE"] = _column([s.mae for s in scores])
+    out["RMSE"] = _column([s.rmse for s in scores])
+    out["MASE"] = _column([s.mase for s in scores], 3)
+    out["80% coverage"] = [f"{s.coverage80:.0f}%" for s in scores]
+    out["95% coverage"] = [f"{s.coverage95:.0f}%" for s in scores]
+    out["interval score (95%)"] = _column([s.interval_score95 for s in scores])
+    return out
 
 
 def _candidates_frame(comparison: Comparison, limit: int = 10) -> pd.DataFrame:
-    rows = [
-        {
-            "model": c.label,
-            "AICc": c.aicc,
-            "delta AICc": c.delta_aicc,
-            "weight": c.weight,
-            "BIC": c.bic,
-        }
-        for c in comparison.accepted[:limit]
-    ]
-    return pd.DataFrame(rows, columns=["model", "AICc", "delta AICc", "weight", "BIC"])
+    shown = comparison.accepted[:limit]
+    out = pd.DataFrame({"model": [c.label for c in shown]})
+    out["AICc"] = _column([c.aicc for c in shown], 2)
+    out["delta AICc"] = _column([c.delta_aicc for c in shown], 2)
+    out["weight"] = _column([c.weight for c in shown], 3)
+    out["BIC"] = _column([c.bic for c in shown], 2)
+    return out
+
+
+_SEARCH_WORDS = {"exhaustive": "every order", "stepwise": "stepwise"}
+_PERIOD_WORDS = {"annual": "year", "quarterly": "quarter", "monthly": "month"}
+
+
+def _transform_words(used: Any) -> str:
+    if isinstance(used, Mapping):
+        name, lam = str(used.get("name", "")), used.get("lambda")
+    else:
+        name, lam = str(used or ""), None
+    if name == "boxcox":
+        return "Box-Cox" + (f" (\u03bb={float(lam):.2f})" if lam is not None else "")
+    if name == "log":
+        return "log"
+    return name or ""
+
+
+def settings_rows(
+    settings: Mapping[str, Any], comparison: Comparison | None = None
+) -> dict[str, str]:
+    """The settings that produced a comparison as labelled lines a manager can read.
+
+    Program internals (worker count, engine, screening margins, raw dicts) are left out.
+
+    Parameters
+    ----------
+    settings : Mapping
+        ``Comparison.settings`` (the core's keys) or the Model Bench's settings
+        (``search, max_p, max_q, seasonal, constant, origins, horizon``).
+    comparison : Comparison, optional
+        Gives the frequency (for "5 years ahead") and the hindcast's origin count.
+
+    Returns
+    -------
+    dict
+        Label -> plain text, e.g. ``{"Transform": "log (chosen automatically)", ...}``.
+    """
+    s = dict(settings)
+    out: dict[str, str] = {}
+    chosen = s.get("transform")
+    used = s.get("transform_used")
+    if used is None and comparison is not None:
+        used = comparison.transform.to_dict()
+    if used is not None or chosen:
+        text = _transform_words(used if used is not None else chosen)
+        out["Transform"] = text + (" (chosen automatically)" if chosen == "auto" else "")
+    order = s.get("order")
+    if order:
+        seasonal_order = s.get("seasonal_order")
+        label = f"ARIMA({','.join(str(int(x)) for x in order)})"
+        if seasonal_order:
+            so = [int(x) for x in seasonal_order]
+            label += f"({so[0]},{so[1]},{so[2]})[{so[3]}]"
+        out["Model order"] = f"fixed at {label}"
+    else:
+        search, search_used = s.get("search"), s.get("search_used") or s.get("search")
+        if search_used:
+            out["Order search"] = _SEARCH_WORDS.get(str(search_used), str(search_used)) + (
+                " (chosen automatically)" if search == "auto" and s.get("search_used") else ""
+            )
+        if s.get("max_p") is not None and s.get("max_q") is not None:
+            text = f"p \u2264 {s['max_p']}, q \u2264 {s['max_q']}"
+            if s.get("seasonal") and s.get("max_P") is not None:
+                text += f"; seasonal P \u2264 {s['max_P']}, Q \u2264 {s.get('max_Q')}"
+            out["Orders searched"] = text
+        elif "seasonal" in s:
+            out["Seasonal terms"] = "searched" if s["seasonal"] else "not searched"
+    if s.get("d") is not None:
+        how = " (from the stationarity tests)" if s.get("stationarity") else ""
+        text = f"d = {s['d']}"
+        if s.get("seasonal") or s.get("D"):
+            text += f", seasonal D = {s.get('D') or 0}"
+        out["Differences"] = text + how
+    constant = s.get("constant", "absent")
+    constant_words = {
+        None: "decided by AICc (fitted with and without)",
+        "auto": "decided by AICc (fitted with and without)",
+        True: "always included",
+        "on": "always included",
+        False: "never included",
+        "off": "never included",
+    }
+    if constant != "absent" and constant in constant_words:
+        out["Constant or drift"] = constant_words[constant]
+    frequency = comparison.frequency if comparison is not None else "annual"
+    period = _PERIOD_WORDS.get(frequency, "period")
+    if s.get("horizon") is not None:
+        h = int(s["horizon"])
+        out["Horizon"] = f"{h} {period}{'s' if h != 1 else ''} ahead"
+    hc = comparison.hindcast if comparison is not None else None
+    if s.get("hindcast") is False and hc is None:
+        out["Hindcast"] = "not run"
+    else:
+        origins = s.get("hindcast_origins", s.get("origins"))
+        if hc is not None:
+            n = len(hc.origins)
+            how = "" if origins is not None else f" (default: the last min(10, n/4) {period}s)"
+            out["Hindcast"] = f"{n} origin{'s' if n != 1 else ''}{how}, {hc.method}"
+        elif origins is not None:
+            out["Hindcast"] = f"{origins} origins"
+    if s.get("stationarity"):
+        out["Stationarity check"] = str(s["stationarity"])
+    return out
 
 
 def _meta_table(pairs: Mapping[str, Any]) -> str:
@@ -413,8 +534,10 @@ def report_html(
         A complete HTML document. Every user-supplied string is escaped.
     """
     e = html.escape
+    # the sentences compare the forecast's model with the last value on the origins both forecast
+    paired = _beside(comparison, forecast.model)
     sentences = (
-        list(summary) if summary is not None else forecast_summary(forecast, comparison, unit=unit)
+        list(summary) if summary is not None else forecast_summary(forecast, paired, unit=unit)
     )
     meta = export_meta(
         forecast, comparison, unit=unit, dataset_hash=dataset_hash, dataset_name=dataset_name
@@ -446,12 +569,12 @@ def report_html(
     parts.append("<h2>Forecast table</h2>")
     parts.append(_table_html(_forecast_frame(forecast), left_cols=("period",)))
     if comparison is not None:
-        skill = _skill_frame(comparison)
+        skill = _skill_frame(comparison, forecast.model)
         if skill is not None:
             parts.append("<h2>Hindcast skill</h2>")
             if comparison.hindcast is not None:
                 parts.append(
-                    f"<p>{e(forecast.model)}: {e(hindcast_sentence(comparison, forecast.model))}</p>"
+                    f"<p>{e(forecast.model)}: {e(hindcast_sentence(paired, forecast.model))}</p>"
                 )
             parts.append(_table_html(skill, left_cols=("model",)))
         parts.append("<h2>Best candidates by AICc</h2>")
@@ -470,7 +593,7 @@ def report_html(
     )
     if chosen:
         parts.append("<h2>Settings</h2>")
-        parts.append(_meta_table({k: v for k, v in chosen.items()}))
+        parts.append(_meta_table(settings_rows(chosen, comparison)))
     versions = package_versions()
     if comparison is not None:
         for v in dict(comparison.provenance).values():

@@ -213,8 +213,18 @@ SIGNED = {
     "created_at": "2026-12-01T20:10:00+00:00",
     "published_at": "2026-12-01T20:15:00+00:00",
     "signoffs": [
-        {"name": "Ben Ito", "role": "Manager", "note": "Fine for the meeting", "signed_at": "2026-12-01T20:30:00+00:00"},
-        {"name": "=HYPERLINK(\"x\")", "role": "+role", "note": "@note, -cmd", "signed_at": "2026-12-01T20:40:00+00:00"},
+        {
+            "name": "Ben Ito",
+            "role": "Manager",
+            "note": "Fine for the meeting",
+            "signed_at": "2026-12-01T20:30:00+00:00",
+        },
+        {
+            "name": '=HYPERLINK("x")',
+            "role": "+role",
+            "note": "@note, -cmd",
+            "signed_at": "2026-12-01T20:40:00+00:00",
+        },
     ],
 }
 
@@ -251,9 +261,74 @@ def test_report_shows_the_signoffs_as_a_dated_list_with_the_cautions(forecast, c
     hostile = {**SIGNED, "title": "<script>alert(1)</script>"}
     page = report_html(forecast, comparison, analysis=hostile)
     assert "<h2>Sign-offs</h2>" in page
-    assert "2026-12-01 20:30 UTC &mdash; <strong>Ben Ito</strong> (Manager): Fine for the meeting" in page
+    assert (
+        "2026-12-01 20:30 UTC &mdash; <strong>Ben Ito</strong> (Manager): Fine for the meeting"
+        in page
+    )
     assert page.index("Ben Ito") < page.index("=HYPERLINK")  # oldest first
     assert "<script>alert(1)</script>" not in page
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in page
     for caution in fc.CAUTIONS:
         assert caution in page
+
+
+# -- report: settings a manager can read, one format per column --------------------------------
+
+
+def _section(page: str, heading: str) -> str:
+    start = page.index(f"<h2>{heading}</h2>")
+    end = page.find("<h2>", start + 5)
+    return page[start : end if end > 0 else None]
+
+
+def test_report_settings_are_labelled_in_plain_words_without_internals(report):
+    settings = _section(report, "Settings")
+    # Nile: no transform, exhaustive search up to p, q = 5, constant tried both ways.
+    for text in (
+        "Transform",
+        "none (chosen automatically)",
+        "Orders searched",
+        "p \u2264 5, q \u2264 5",
+        "Constant or drift",
+        "decided by AICc",
+        "Horizon",
+        "5 years ahead",
+        "Hindcast",
+        "10 origins",
+    ):
+        assert text in settings, text
+    for internal in ("transform_used", "workers", "engine", "None", "{", "screening", "max_p"):
+        assert internal not in settings, internal
+
+
+@pytest.mark.parametrize(
+    ("settings", "label", "text"),
+    [
+        ({"transform": "boxcox", "transform_used": {"name": "boxcox", "lambda": 0.25}},
+         "Transform", "Box-Cox (\u03bb=0.25)"),
+        ({"transform": "auto", "transform_used": {"name": "log", "lambda": None}},
+         "Transform", "log (chosen automatically)"),
+        ({"order": [1, 1, 0], "seasonal_order": [0, 1, 1, 12]}, "Model order",
+         "fixed at ARIMA(1,1,0)(0,1,1)[12]"),
+        ({"constant": True}, "Constant or drift", "always included"),
+        ({"constant": "off"}, "Constant or drift", "never included"),
+        ({"horizon": 1}, "Horizon", "1 year ahead"),
+    ],
+)  # fmt: skip
+def test_settings_rows_read_each_setting_in_words(settings, label, text):
+    from app.export import settings_rows
+
+    assert settings_rows(settings)[label] == text
+
+
+def test_report_hindcast_table_uses_one_number_of_decimals_per_column(report):
+    table = _section(report, "Hindcast skill")
+    head = re.findall(r"<th[^>]*>([^<]*)</th>", table)
+    rows = re.findall(r"<tr>(.*?)</tr>", table)[1:]
+    cells = [re.findall(r"<td[^>]*>([^<]*)</td>", r) for r in rows]
+    assert cells
+    for j, name in enumerate(head):
+        if name == "model":
+            continue
+        decimals = {len(c[j].split(".")[1]) if "." in c[j] else 0 for c in cells if c[j]}
+        assert len(decimals) == 1, (name, [c[j] for c in cells])
