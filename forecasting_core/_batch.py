@@ -38,6 +38,7 @@ from forecasting_core._batch_records import (  # re-exported: the batch's record
     RECORD_KEYS,
     _better_benchmarks,
     compute_one,
+    data_warnings,
     error_record,
     forecast_record,
     hindcast_summary,
@@ -46,13 +47,14 @@ from forecasting_core._batch_records import (  # re-exported: the batch's record
     provenance,
     series_sha256,
     unusable_message,
+    with_data_warnings,
 )
 from forecasting_core._results import InputError, Table
 
 __all__ = [
-    "LEVELS", "RECORD_KEYS", "_better_benchmarks", "compute_one", "error_record",
+    "LEVELS", "RECORD_KEYS", "_better_benchmarks", "compute_one", "data_warnings", "error_record",
     "forecast_record", "hindcast_summary", "iter_batch", "package_versions", "problem_text",
-    "provenance", "run_batch", "series_sha256", "unusable_message",
+    "provenance", "run_batch", "series_sha256", "unusable_message", "with_data_warnings",
 ]  # fmt: skip
 
 #: Series submitted but not yet handed back, per worker (bounds memory and keeps workers busy).
@@ -201,9 +203,13 @@ def iter_batch(
         )
     if workers is None and scheduler is None:
         workers = _default_workers()
-    if workers is not None and (isinstance(workers, bool) or not isinstance(workers, int) or workers < 1):
+    if workers is not None and (
+        isinstance(workers, bool) or not isinstance(workers, int) or workers < 1
+    ):
         raise InputError(f"workers must be a positive integer. Got {workers!r} instead.")
-    if window is not None and (isinstance(window, bool) or not isinstance(window, int) or window < 1):
+    if window is not None and (
+        isinstance(window, bool) or not isinstance(window, int) or window < 1
+    ):
         raise InputError(f"window must be a positive integer. Got {window!r} instead.")
     if isinstance(path_or_table, Table):
         table = path_or_table
@@ -248,6 +254,8 @@ def _run(
 
     def finish(i: int, record: dict[str, Any]) -> None:
         nonlocal done
+        # The file check's findings are added here, in this process, whatever ran the task.
+        record = with_data_warnings(record, data_warnings(table, names[i]))
         ready[i] = record
         done += 1
         if on_result is not None:
@@ -281,7 +289,9 @@ def _run(
                     if pending:
                         break
                     i, isolated = suspects.popleft(), True
-                elif todo and not isolated and todo[0] - next_out < window and len(pending) < window:
+                elif (
+                    todo and not isolated and todo[0] - next_out < window and len(pending) < window
+                ):
                     i = todo.popleft()
                 else:
                     break
@@ -371,7 +381,9 @@ def run_batch(
     list of dict
         One forecast object per series in file order (DESIGN.md contract plus ``cautions``
         and ``provenance``); a series that could not be used or failed has an ``"error"``
-        message instead of the model and forecast keys. The same whatever the number of
+        message instead of the model and forecast keys. A record's ``warnings`` start with
+        the file check's findings for its series (:func:`data_warnings`: file-wide ones, then
+        its own, with file rows and years). The same whatever the number of
         workers or the cluster. For very large files use :func:`iter_batch` (same records,
         one at a time, bounded memory).
 
@@ -383,7 +395,13 @@ def run_batch(
     """
     return list(
         iter_batch(
-            path_or_table, horizon, transform=transform, workers=workers, scheduler=scheduler,
-            progress=progress, on_result=on_result, **compare_settings,
+            path_or_table,
+            horizon,
+            transform=transform,
+            workers=workers,
+            scheduler=scheduler,
+            progress=progress,
+            on_result=on_result,
+            **compare_settings,
         )  # fmt: skip
     )

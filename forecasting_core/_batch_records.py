@@ -170,7 +170,10 @@ def forecast_record(
         "transform": comparison.transform.to_dict(),
         "model": best.model_dict(),
         "candidates": [
-            {k: c.to_dict()[k] for k in ("label", "order", "seasonal_order", "aicc", "delta_aicc", "weight")}
+            {
+                k: c.to_dict()[k]
+                for k in ("label", "order", "seasonal_order", "aicc", "delta_aicc", "weight")
+            }
             for c in comparison.accepted
         ],
         "hindcast": hindcast_summary(comparison),
@@ -287,3 +290,36 @@ def unusable_message(table: Table, name: str) -> str:
     ]
     detail = "; ".join(parts) if parts else "it has no usable values."
     return f"series {name!r} cannot be used: {detail}"
+
+
+def data_warnings(table: Table, name: str) -> list[str]:
+    """The file check's findings that concern series ``name``, as record warnings.
+
+    File-wide findings come first (those ``check --json`` lists at the top level: no column,
+    or a column that is not a series, such as the time column), then the series' own ones
+    (without its column, which the record names already). Each reads as ``check`` writes it,
+    with the 1-based file row and the year: "File check: row 15: row 15 repeats row 14
+    exactly; it was kept once."
+    """
+    series_names = set(table.info)
+    found = [p for p in table.problems if p.column is None or p.column not in series_names]
+    own = table.info[name].problems if name in table.info else ()
+    out: list[str] = []
+    for text in (
+        *(problem_text(p) for p in found),
+        *(problem_text(replace(p, column=None)) for p in own),
+    ):
+        line = f"File check: {text}"
+        if line not in out:
+            out.append(line)
+    return out
+
+
+def with_data_warnings(record: dict[str, Any], found: list[str]) -> dict[str, Any]:
+    """The record with the file check's findings (:func:`data_warnings`) before its own warnings.
+
+    Error records and records without findings come back unchanged; the key order stays.
+    """
+    if not found or "error" in record or "warnings" not in record:
+        return record
+    return {**record, "warnings": [*found, *(w for w in record["warnings"] if w not in found)]}

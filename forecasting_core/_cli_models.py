@@ -22,8 +22,10 @@ from forecasting_core._results import CAUTIONS, InputError
 
 TRANSFORMS = ("none", "log", "boxcox", "auto")
 MAX_HORIZON = 30
+#: Columns of the forecast CSV: the series and model, then the dashboard's order (time, step,
+#: mean, median, bands, probability below the reference).
 CSV_COLUMNS = (
-    "series", "model", "time", "step", "median", "mean", "lo50", "hi50", "lo80", "hi80",
+    "series", "model", "time", "step", "mean", "median", "lo50", "hi50", "lo80", "hi80",
     "lo95", "hi95", "prob_below_reference",
 )  # fmt: skip
 #: A cell a spreadsheet would run as a formula starts with one of these.
@@ -45,7 +47,9 @@ def parse_horizon(value: Any) -> int:
     text = "" if value is None or isinstance(value, bool) else str(value).strip()
     if not re.fullmatch(r"\+?\d+", text) or not 1 <= int(text) <= MAX_HORIZON:
         shown = text if re.fullmatch(r"[+-]?\d+", text) else repr(value)
-        raise InputError(f"--horizon must be an integer from 1 to {MAX_HORIZON}. Got {shown} instead.")
+        raise InputError(
+            f"--horizon must be an integer from 1 to {MAX_HORIZON}. Got {shown} instead."
+        )
     return int(text)
 
 
@@ -68,7 +72,9 @@ def parse_ints(value: Any, count: int, option: str, example: str) -> tuple[int, 
 def parse_transform(value: Any) -> str:
     value = "auto" if value is None else str(value)
     if value not in TRANSFORMS:
-        raise InputError(f"--transform must be one of {', '.join(TRANSFORMS)}. Got {value!r} instead.")
+        raise InputError(
+            f"--transform must be one of {', '.join(TRANSFORMS)}. Got {value!r} instead."
+        )
     return value
 
 
@@ -80,7 +86,9 @@ def parse_reference(value: Any) -> float | None:
     except (TypeError, ValueError):
         ref = math.nan
     if not math.isfinite(ref):
-        raise InputError(f"--reference must be a number on the series' scale. Got {value!r} instead.")
+        raise InputError(
+            f"--reference must be a number on the series' scale. Got {value!r} instead."
+        )
     return ref
 
 
@@ -199,7 +207,12 @@ def forecast_text(
         table.append(cells)
     widths = [max(len(row[i]) for row in table) for i in range(len(head))]
     for k, row in enumerate(table):
-        lines.append("  ".join(c.rjust(w) if i else c.ljust(w) for i, (c, w) in enumerate(zip(row, widths, strict=True))))
+        lines.append(
+            "  ".join(
+                c.rjust(w) if i else c.ljust(w)
+                for i, (c, w) in enumerate(zip(row, widths, strict=True))
+            )
+        )
         if k == 0:
             lines.append("  ".join("-" * w for w in widths))
     lines.append("")
@@ -247,19 +260,47 @@ def csv_rows(record: dict[str, Any]) -> list[list[str]]:
     return out
 
 
-def _forecast_csv_head(w: Any, source: str | None) -> None:
-    """The comment header (cautions) and column names of a forecast CSV."""
-    w.writerow([safe_cell(f"# Haulcast forecasts{' from ' + source if source else ''}")])
+def comment_line(text: str) -> str:
+    """``# text`` as one physical CSV line, never quoted, that no spreadsheet runs as a formula.
+
+    ``pandas.read_csv(path, comment="#")`` skips the whole line, commas included (a quoted
+    line would not start with ``#`` and would be read as data). Whitespace runs (line breaks
+    too) become one space and double quotes single ones, so no quoted field can open; a
+    spreadsheet may split the line at its commas, so every piece after a comma that would
+    start a formula gets a single quote, as :func:`safe_cell` does for data cells.
+    """
+    pieces = re.sub(r"\s+", " ", str(text)).strip().replace('"', "'").split(",")
+    safe = [pieces[0]] + [
+        " '" + p.lstrip()
+        if p.lstrip().startswith(_FORMULA_START) and not _PLAIN_NUMBER.match(p.strip())
+        else p
+        for p in pieces[1:]
+    ]
+    return "# " + ",".join(safe)
+
+
+def _forecast_csv_head(fh: TextIO, source: str | None) -> None:
+    """The comment lines (source, cautions) and column names of a forecast CSV.
+
+    ``fh`` is a text file opened with ``newline=""``; lines end in ``\\r\\n`` like the csv
+    module's rows.
+    """
+    fh.write(comment_line(f"Haulcast forecasts{' from ' + source if source else ''}") + "\r\n")
     for c in CAUTIONS:
-        w.writerow([f"# Caution: {c}"])
-    w.writerow(list(CSV_COLUMNS))
+        fh.write(comment_line(f"Caution: {c}") + "\r\n")
+    csv.writer(fh).writerow(list(CSV_COLUMNS))
 
 
-def write_forecast_csv(path: Path | str, records: Sequence[dict[str, Any]], source: str | None = None) -> None:
-    """Write forecast rows with a comment header holding the cautions."""
+def write_forecast_csv(
+    path: Path | str, records: Sequence[dict[str, Any]], source: str | None = None
+) -> None:
+    """Write forecast rows after comment lines holding the source and the cautions.
+
+    ``pandas.read_csv(path, comment="#")`` reads the table (:data:`CSV_COLUMNS`).
+    """
     with open(path, "w", newline="", encoding="utf-8") as fh:
+        _forecast_csv_head(fh, source)
         w = csv.writer(fh)
-        _forecast_csv_head(w, source)
         for record in records:
             w.writerows(csv_rows(record))
 
@@ -291,7 +332,7 @@ def _guard(run, args: Any) -> int:
 
 
 def _forecast(args: Any) -> int:
-    from forecasting_core._batch import compute_one
+    from forecasting_core._batch import compute_one, data_warnings, with_data_warnings
 
     horizon = parse_horizon(_opt(args, "horizon"))
     order = parse_ints(_opt(args, "order"), 3, "--order", "1,1,0")
@@ -312,6 +353,7 @@ def _forecast(args: Any) -> int:
         y, horizon, transform=transform, reference=reference,
         data_sha256=table.sha256, source=table.source, **settings,
     )  # fmt: skip
+    record = with_data_warnings(record, data_warnings(table, str(_opt(args, "series"))))
     csv_path = _opt(args, "csv")
     if csv_path:
         write_forecast_csv(csv_path, [record], source=table.source)
@@ -319,7 +361,11 @@ def _forecast(args: Any) -> int:
         _dump(record, sys.stdout)
     else:
         verdict = comparison.hindcast.verdict if comparison.hindcast else None
-        unit = table.info[str(_opt(args, "series"))].unit if str(_opt(args, "series")) in table.info else None
+        unit = (
+            table.info[str(_opt(args, "series"))].unit
+            if str(_opt(args, "series")) in table.info
+            else None
+        )
         print(forecast_text(record, verdict, unit, comparison.hindcast))
         if csv_path:
             print(f"\nForecast table written to {csv_path}")
@@ -372,7 +418,9 @@ def _batch(args: Any) -> int:
         except (TypeError, ValueError):
             workers = -1
         if workers < 1:
-            raise InputError(f"--workers must be a positive integer. Got {_opt(args, 'workers')!r} instead.")
+            raise InputError(
+                f"--workers must be a positive integer. Got {_opt(args, 'workers')!r} instead."
+            )
     scheduler = _opt(args, "scheduler")
     if scheduler is not None and workers is not None:
         raise InputError(
@@ -410,7 +458,7 @@ def _batch(args: Any) -> int:
         rows_fh = open(out / "forecasts.csv.partial", "w", newline="", encoding="utf-8")
         files.append(rows_fh)
         models, rows = JsonListWriter(models_fh), csv.writer(rows_fh)
-        _forecast_csv_head(rows, table.source)
+        _forecast_csv_head(rows_fh, table.source)
     stdout_json = JsonListWriter(sys.stdout) if as_json else None
     ok = 0
     failed: list[tuple[str, str, str]] = []
@@ -443,7 +491,9 @@ def _batch(args: Any) -> int:
     if not as_json:
         print(f"{ok} of {ok + len(failed)} series forecast.")
         if out_dir:
-            print(f"Written: {Path(str(out_dir)) / 'forecasts.csv'} and {Path(str(out_dir)) / 'models.json'}")
+            print(
+                f"Written: {Path(str(out_dir)) / 'forecasts.csv'} and {Path(str(out_dir)) / 'models.json'}"
+            )
         print("Cautions:")
         for c in CAUTIONS:
             print(f"  - {c}")

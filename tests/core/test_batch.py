@@ -183,7 +183,10 @@ def test_streamed_json_list_is_byte_identical_to_json_dump(count):
 
     from forecasting_core._cli_models import JsonListWriter
 
-    items = [{"series": f"s{i}", "forecast": [{"step": 1, "mean": 1.5 * i}], "x": None} for i in range(count)]
+    items = [
+        {"series": f"s{i}", "forecast": [{"step": 1, "mean": 1.5 * i}], "x": None}
+        for i in range(count)
+    ]
     out = io.StringIO()
     writer = JsonListWriter(out)
     for item in items:
@@ -198,7 +201,9 @@ def test_workers_and_scheduler_together_say_which_to_drop(small_file):
         run_batch(small_file, 2, workers=2, scheduler="tcp://127.0.0.1:8786")
 
 
-def test_scheduler_without_dask_installed_exits_2_and_names_the_extra(small_file, capsys, monkeypatch):
+def test_scheduler_without_dask_installed_exits_2_and_names_the_extra(
+    small_file, capsys, monkeypatch
+):
     import argparse
     import sys
 
@@ -213,3 +218,72 @@ def test_scheduler_without_dask_installed_exits_2_and_names_the_extra(small_file
     err = capsys.readouterr().err
     assert code == 2
     assert "pip install 'haulcast[cluster]'" in err and "Traceback" not in err
+
+
+@pytest.fixture(scope="module")
+def messy_file(tmp_path_factory) -> Path:
+    """A units row (row 2), an exact repeat of 2010 (row 20) and a gap in cod_t (2003, row 12).
+
+    Seeded random walks, invented for plumbing only. File rows: header 1, units 2, 1994 = row 3.
+    """
+    rng = np.random.default_rng(20261203)
+    years = np.arange(1994, 2026)
+    cod = 500 * np.exp(np.cumsum(rng.normal(0, 0.1, years.size)))
+    ling = 80 + np.cumsum(rng.normal(0, 3, years.size))
+    lines = ["year,cod_t,ling_t", ",tonnes,tonnes"]
+    for i, year in enumerate(years):
+        lines.append(f"{year},{'' if year == 2003 else f'{cod[i]:.1f}'},{ling[i]:.1f}")
+        if year == 2010:
+            lines.append(lines[-1])
+    path = tmp_path_factory.mktemp("messy") / "messy_landings.csv"
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return path
+
+
+@pytest.fixture(scope="module")
+def messy_inline(messy_file):
+    return run_batch(messy_file, 2, transform="none", workers=1, **SMALL)
+
+
+def test_batch_records_carry_the_file_checks_warnings_with_rows_and_years(messy_inline):
+    cod, ling = messy_inline
+    file_wide = [
+        "File check: row 2: row 2 looks like a units row (cod_t: 'tonnes', ling_t: 'tonnes'); "
+        "it was read as the units, not as data.",
+        "File check: row 20: row 20 repeats row 19 exactly; it was kept once.",
+    ]
+    gap = "File check: row 12, 2003: empty or NA cells in row 12 (2003); kept as missing."
+    assert cod["warnings"][:3] == [*file_wide, gap]
+    assert ling["warnings"][:2] == file_wide
+    assert gap not in ling["warnings"]  # a series' own problems stay with it
+    assert tuple(cod) == RECORD_KEYS
+
+
+def test_batch_warnings_hold_every_problem_the_check_command_reports(messy_inline, messy_file):
+    from forecasting_core.__main__ import check_report
+    from forecasting_core._table import read_table
+
+    # What `python -m forecasting_core check --json` prints for the file.
+    report = check_report(read_table(messy_file))
+    for record, item in zip(messy_inline, report["series"], strict=True):
+        assert record["series"] == item["name"]
+        for p in [*report["problems"], *item["problems"]]:
+            where = ", ".join(x for x in (p["row"] and f"row {p['row']}", p["time"]) if x)
+            assert f"File check: {where}: {p['message']}" in record["warnings"]
+
+
+def test_data_warnings_are_byte_identical_on_two_workers_and_a_cluster(messy_inline, messy_file):
+    two = run_batch(messy_file, 2, transform="none", workers=2, **SMALL)
+    assert json.dumps(two, indent=2) == json.dumps(messy_inline, indent=2)
+    distributed = pytest.importorskip("distributed", reason="dask/distributed not installed")
+    with distributed.LocalCluster(
+        n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None
+    ) as cluster:
+        on_cluster = run_batch(messy_file, 2, transform="none", scheduler=cluster, **SMALL)
+    assert json.dumps(on_cluster, indent=2) == json.dumps(messy_inline, indent=2)
+
+
+def test_a_file_without_problems_adds_no_data_warnings(inline_run):
+    records, _ = inline_run
+    for r in records[:2]:
+        assert not any(w.startswith("File check:") for w in r["warnings"])

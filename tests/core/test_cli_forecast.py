@@ -17,7 +17,13 @@ from pathlib import Path
 import pytest
 
 import forecasting_core._search as search_mod
-from forecasting_core._cli_models import _cli_batch, _cli_forecast, safe_cell, write_forecast_csv
+from forecasting_core._cli_models import (
+    CSV_COLUMNS,
+    _cli_batch,
+    _cli_forecast,
+    safe_cell,
+    write_forecast_csv,
+)
 from forecasting_core._results import CAUTIONS
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -82,11 +88,50 @@ def test_forecast_json_has_exactly_the_contract_keys(hake_json):
 
 def test_forecast_csv_starts_with_the_cautions(hake_json):
     *_, csv_path = hake_json
-    rows = list(csv.reader(csv_path.open(encoding="utf-8")))
-    assert rows[1] == [f"# Caution: {CAUTIONS[0]}"]
-    assert rows[2] == [f"# Caution: {CAUTIONS[1]}"]
-    assert rows[3][:4] == ["series", "model", "time", "step"]
-    assert [r[2] for r in rows[4:]] == ["2026", "2027", "2028"]
+    lines = csv_path.read_text(encoding="utf-8").splitlines()
+    # Comment lines are written as they are, never quoted (the cautions hold commas).
+    assert lines[1] == f"# Caution: {CAUTIONS[0]}"
+    assert lines[2] == f"# Caution: {CAUTIONS[1]}"
+    rows = list(csv.reader(lines[3:]))
+    assert rows[0][:6] == ["series", "model", "time", "step", "mean", "median"]
+    assert [r[2] for r in rows[1:]] == ["2026", "2027", "2028"]
+
+
+def test_forecast_csv_reads_with_pandas_comment_option(hake_json):
+    import pandas as pd
+
+    *_, csv_path = hake_json
+    table = pd.read_csv(csv_path, comment="#")  # pandas skips lines that start with '#'
+    assert list(table.columns) == list(CSV_COLUMNS)
+    assert table["time"].tolist() == [2026, 2027, 2028]
+    assert table["step"].tolist() == [1, 2, 3]
+    assert (table["lo95"] < table["median"]).all() and (table["median"] < table["hi95"]).all()
+    assert table["prob_below_reference"].between(0, 1).all()
+
+
+def test_csv_columns_follow_the_dashboard_order():
+    # The dashboard's CSV download: time, step, mean, median, lo/hi per level, probability.
+    dashboard = ["time", "step", "mean", "median", "lo50", "hi50", "lo80", "hi80", "lo95", "hi95",
+                 "prob_below_reference"]  # fmt: skip
+    assert list(CSV_COLUMNS) == ["series", "model", *dashboard]
+
+
+@pytest.mark.parametrize(
+    "source",
+    ['landings, "2025".csv', "=cmd|' /C calc'!A0.csv", "a,=HYPERLINK(1),b.csv", "two\nlines.csv"],
+)
+def test_comment_lines_of_any_source_name_stay_one_unquoted_safe_line(tmp_path, source):
+    import pandas as pd
+
+    path = tmp_path / "out.csv"
+    write_forecast_csv(path, [SMALL_RECORD], source=source)
+    lines = path.read_text(encoding="utf-8").splitlines()
+    assert [line.startswith("# ") for line in lines[:4]] == [True, True, True, False]
+    assert '"' not in lines[0]
+    # A spreadsheet splits the line at commas: no piece may start a formula (OWASP "CSV Injection").
+    assert not any(piece.lstrip().startswith(("=", "+", "@")) for piece in lines[0].split(","))
+    table = pd.read_csv(path, comment="#")
+    assert table.shape == (1, len(CSV_COLUMNS))
 
 
 def test_plain_forecast_is_a_readable_table_with_verdict_and_cautions(capsys):
@@ -137,7 +182,7 @@ def test_module_command_exits_2_without_traceback_for_an_unknown_series():
 @pytest.mark.parametrize(
     ("cell", "written"),
     [
-        ("=HYPERLINK(\"http://x\")", "'=HYPERLINK(\"http://x\")"),
+        ('=HYPERLINK("http://x")', '\'=HYPERLINK("http://x")'),
         ("+cmd", "'+cmd"),
         ("-2+3", "'-2+3"),
         ("@SUM(A1)", "'@SUM(A1)"),
@@ -154,19 +199,21 @@ def test_csv_cells_that_start_a_formula_are_neutralised(cell, written):
     assert safe_cell(cell) == written
 
 
+SMALL_RECORD = {
+    "series": "=cmd|' /C calc'!A0",
+    "model": {"label": "ARIMA(1,0,0) with constant"},
+    "forecast": [
+        {"time": "2026", "step": 1, "mean": -0.25, "median": -0.25,
+         "intervals": {"80": [-0.5, 0.0]}, "prob_below_reference": None},
+    ],
+}  # fmt: skip
+
+
 def test_written_csv_neutralises_names_and_keeps_negative_numbers(tmp_path):
-    record = {
-        "series": "=cmd|' /C calc'!A0",
-        "model": {"label": "ARIMA(1,0,0) with constant"},
-        "forecast": [
-            {"time": "2026", "step": 1, "mean": -0.25, "median": -0.25,
-             "intervals": {"80": [-0.5, 0.0]}, "prob_below_reference": None},
-        ],
-    }  # fmt: skip
     path = tmp_path / "out.csv"
-    write_forecast_csv(path, [record])
-    rows = list(csv.reader(path.open(encoding="utf-8")))
-    data = dict(zip(rows[3], rows[4], strict=True))
+    write_forecast_csv(path, [SMALL_RECORD])
+    rows = list(csv.reader(path.read_text(encoding="utf-8").splitlines()[3:]))
+    data = dict(zip(rows[0], rows[1], strict=True))
     assert data["series"] == "'=cmd|' /C calc'!A0"
     assert (data["median"], data["lo80"], data["hi80"]) == ("-0.25", "-0.5", "0.0")
     assert float(data["median"]) == -0.25
@@ -185,7 +232,12 @@ def test_batch_writes_outputs_reports_progress_and_failures(tmp_path, capsys, mo
     src = tmp_path / "two.csv"
     src.write_text("\n".join(lines) + "\n", encoding="utf-8")
     args = argparse.Namespace(
-        file=str(src), horizon="2", transform="none", workers="1", json=False, out=str(tmp_path / "o")
+        file=str(src),
+        horizon="2",
+        transform="none",
+        workers="1",
+        json=False,
+        out=str(tmp_path / "o"),
     )
     code = _cli_batch(args)
     out, err = capsys.readouterr()
@@ -195,9 +247,14 @@ def test_batch_writes_outputs_reports_progress_and_failures(tmp_path, capsys, mo
     assert "1 of 2 series forecast" in out and CAUTIONS[1] in out
     models = json.loads((tmp_path / "o" / "models.json").read_text(encoding="utf-8"))
     assert [m["series"] for m in models] == ["cod_t", "skate_t"]
-    rows = list(csv.reader((tmp_path / "o" / "forecasts.csv").open(encoding="utf-8")))
-    assert rows[1][0].startswith("# Caution:")
-    assert [r[0] for r in rows[4:]] == ["cod_t", "cod_t"]
+    text = (tmp_path / "o" / "forecasts.csv").read_text(encoding="utf-8")
+    assert text.splitlines()[1:3] == [f"# Caution: {c}" for c in CAUTIONS]
+    import pandas as pd
+
+    table = pd.read_csv(tmp_path / "o" / "forecasts.csv", comment="#")
+    assert list(table.columns) == list(CSV_COLUMNS)
+    assert table["series"].tolist() == ["cod_t", "cod_t"]
+    assert table["time"].tolist() == [2026, 2027]
     assert "Traceback" not in out + err
 
 
@@ -214,3 +271,27 @@ def test_file_without_series_exits_2_naming_the_problem(tmp_path, capsys, comman
     err = capsys.readouterr().err
     assert err.startswith("error: ")
     assert "words.csv" in err and "Traceback" not in err
+
+
+def test_forecast_json_warnings_hold_the_files_data_problems(tmp_path, capsys):
+    # Invented plumbing data: a units row (row 2), a repeat of 2010 (row 20), a gap in 2003
+    # (row 12) in cod_t only. File rows are 1-based with the header as row 1.
+    lines = ["year,cod_t,ling_t", ",tonnes,tonnes"]
+    for i in range(32):
+        year = 1994 + i
+        lines.append(f"{year},{'' if year == 2003 else 500 + 7 * i + (i % 3) * 11},{80 + (i % 4)}")
+        if year == 2010:
+            lines.append(lines[-1])
+    src = tmp_path / "messy.csv"
+    src.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    code = _cli_forecast(forecast_args(file=str(src), series="cod_t", horizon="2", order="0,1,1"))
+    out, err = capsys.readouterr()
+    assert code == 0, err
+    record = json.loads(out)
+    assert list(record) == CONTRACT_KEYS
+    assert record["warnings"][:3] == [
+        "File check: row 2: row 2 looks like a units row (cod_t: 'tonnes', ling_t: 'tonnes'); "
+        "it was read as the units, not as data.",
+        "File check: row 20: row 20 repeats row 19 exactly; it was kept once.",
+        "File check: row 12, 2003: empty or NA cells in row 12 (2003); kept as missing.",
+    ]
