@@ -43,7 +43,7 @@ def xlsx_grid(data: bytes) -> Grid:
         notes.append(
             Problem(
                 "warning",
-                f"{count} cell{'s' if count > 1 else ''} hold formulas without saved results "
+                f"{count} cell{'s hold formulas' if count > 1 else ' holds a formula'} without saved results "
                 f"(e.g. row {r}, column {c}: {formula!r}), so they read as empty. Open the workbook in "
                 "a spreadsheet program and save it again, or export the sheet as CSV.",
                 row=r,

@@ -822,6 +822,15 @@ def test_xlsx_formulas_without_saved_results_are_explained(tmp_path):
     )
 
 
+def test_one_xlsx_formula_without_a_saved_result_is_worded_in_the_singular(tmp_path):
+    rows = [["year", "hake_t", "total_t"]]
+    rows += [[1990 + k, 1000 + k, 1000 + k] for k in range(20)]
+    rows[5][2] = "=B6*1"
+    table = fc.read_table(_workbook(tmp_path / "one.xlsx", {"Sheet1": rows}))
+    messages = [p.message for p in table.warnings if "without saved results" in p.message]
+    assert messages and messages[0].startswith("1 cell holds a formula without saved results")
+
+
 def test_long_layout_with_two_value_columns_gives_one_series_per_name_and_column():
     rows = ["stock,year,landings_t,effort_days"]
     rows += [
