@@ -65,7 +65,12 @@ def _fan(state: Mapping[str, Any], present: bool) -> go.Figure:
 
 
 def _prob(state: Mapping[str, Any], present: bool) -> go.Figure:
-    fig = figures.prob_below_figure(state["forecast"], height=300 if present else 240)
+    forecast = state["forecast"]
+    fig = figures.prob_below_figure(forecast, height=300 if present else 240)
+    if forecast.reference is not None:
+        # the bars' labels follow the forecast table's rule ("less than 1%", never "0%")
+        labels = [wording.fmt_chance(float(p)) for p in forecast.table["prob_below_reference"]]
+        fig.update_traces(text=labels, selector={"type": "bar"})
     if present:
         fig.update_layout(font={"size": 18})
     return fig
@@ -127,7 +132,13 @@ def _details(state: Mapping[str, Any]) -> list[Any]:
     parts: list[Any] = [html_table(rows, [("k", "Item"), ("v", "Value")])]
     if comparison.hindcast is not None:
         parts.append(
-            html.P([html.Strong("Hindcast: "), f"{c.label}. ", wording.hindcast_sentence(comparison, c.label)])
+            html.P(
+                [
+                    html.Strong("Hindcast: "),
+                    f"{c.label}. ",
+                    wording.hindcast_sentence(comparison, c.label),
+                ]
+            )
         )
     diag = wording.residual_report(comparison, c.label)
     if diag is not None:
@@ -431,7 +442,9 @@ def save_reference(
     # an analysis opened by link on this visit: its selection, so this write agrees with the
     # one board_saved.open_analysis makes whichever lands first
     base = saved.overlay(data, opened)
-    if isinstance(data, Mapping) and all(data.get(k) == v for k, v in {**base, "reference": ref}.items()):
+    if isinstance(data, Mapping) and all(
+        data.get(k) == v for k, v in {**base, "reference": ref}.items()
+    ):
         raise PreventUpdate
     return changed_selection(base, reference=ref)
 
@@ -528,7 +541,9 @@ def _export_analysis(state: Mapping[str, Any]) -> dict[str, Any] | None:
     State(SELECTION_ID, "data"),
 )
 @guarded("showing the forecast record", outputs=1)
-def show_record(_mount: Any, opened: Mapping[str, Any] | None, data: Mapping[str, Any] | None) -> Any:
+def show_record(
+    _mount: Any, opened: Mapping[str, Any] | None, data: Mapping[str, Any] | None
+) -> Any:
     from app.state import resolve_selection
 
     return _record(resolve_selection(saved.overlay(data, opened)))

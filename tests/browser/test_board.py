@@ -79,6 +79,20 @@ def test_reference_level_sets_the_chance_of_falling_below(page, open_page, settl
     )
 
 
+def test_the_chance_chart_labels_round_as_the_table_does(page, open_page, settle):
+    _open_board(page, open_page, settle)
+    reference = page.locator("#board-reference")
+    reference.fill("1")  # far below every band: the table says "less than 1%"
+    reference.press("Enter")
+    expect(page.locator("#board-table-rows thead")).to_contain_text("Chance below 1")
+    settle(page)
+    chances = _chances(page)
+    assert chances and all(c == "less than 1%" for c in chances), chances
+    labels = page.locator("#board-prob text.bartext")
+    expect(labels.first).to_be_attached()
+    assert [t.strip() for t in labels.all_text_contents()] == chances
+
+
 def test_reference_level_below_zero_is_questioned(page, open_page, settle):
     _open_board(page, open_page, settle)
     reference = page.locator("#board-reference")
