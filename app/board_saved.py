@@ -104,20 +104,35 @@ clientside_callback(
     State(AUTHOR_ID, "data"),
 )
 
-# The address bar names the analysis being looked at, so it can be copied as a link.
+# The address bar names the analysis being looked at, so it can be copied as a link: the one
+# whose link the saved panel shows (so it follows what is on screen, whichever callback
+# answered first), else the one this visit opened or saved.
 clientside_callback(
-    """function (opened) {
-        if (opened && typeof opened.id === "string" && /^[0-9a-f]{32}$/.test(opened.id)
-                && window.location.pathname === "/board") {
+    """function (panel, opened) {
+        var shown = null;
+        var find = function (node) {
+            if (shown || !node || typeof node !== "object") { return; }
+            if (Array.isArray(node)) { node.forEach(find); return; }
+            var props = node.props || {};
+            if (props.id === "board-saved-link" && typeof props.href === "string") {
+                var m = /[?&]analysis=([0-9a-f]{32})(?:&|$)/.exec(props.href);
+                if (m) { shown = m[1]; return; }
+            }
+            find(props.children);
+        };
+        find(panel);
+        var id = shown || ((opened && typeof opened.id === "string") ? opened.id : null);
+        if (id && /^[0-9a-f]{32}$/.test(id) && window.location.pathname === "/board") {
             var params = new URLSearchParams(window.location.search);
-            if (params.get("analysis") !== opened.id) {
-                params.set("analysis", opened.id);
+            if (params.get("analysis") !== id) {
+                params.set("analysis", id);
                 window.history.replaceState(window.history.state, "", "/board?" + params.toString());
             }
         }
         return window.dash_clientside.no_update;
     }""",
     Output("board-open-note", "title"),
+    Input("board-saved-status", "children"),
     Input(OPEN_ID, "data"),
 )
 

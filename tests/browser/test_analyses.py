@@ -276,6 +276,12 @@ def test_double_clicking_sign_off_records_one_sign_off_and_the_name_box_starts_e
     # the form is cleared after the sign-off
     expect(page.locator("#board-signoff-name")).to_have_value("")
     expect(page.locator("#board-signoff-note")).to_have_value("")
+    # a late second click on the cleared form is ignored: no sign-off, no error
+    page.click("#board-signoff")
+    page.wait_for_timeout(1500)
+    settle(page)
+    expect(page.locator("#board-saved-msg")).to_contain_text("Signed off by Ben Manager")
+    assert len(store.get_analysis(analysis_id).signoffs) == 1
 
 
 def test_saving_a_new_version_puts_its_id_in_the_address_bar(new_page, open_page, settle, live_app):
