@@ -115,7 +115,7 @@ clientside_callback(
             if (Array.isArray(node)) { node.forEach(find); return; }
             var props = node.props || {};
             if (props.id === "board-saved-link" && typeof props.href === "string") {
-                var m = /[?&]analysis=([0-9a-f]{32})(?:&|$)/.exec(props.href);
+                var m = props.href.match(/[?&]analysis=([0-9a-f]{32})(?:&|$)/);
                 if (m) { shown = m[1]; return; }
             }
             find(props.children);
