@@ -166,8 +166,27 @@ def skill_table() -> dash_table.DataTable:
         {"name": "Interval score 80%", "id": "is80", "type": "numeric", "format": _fixed(1)},
         {"name": "Interval score 95%", "id": "is95", "type": "numeric", "format": _fixed(1)},
     ]
+    style = _table_style()
+    # ten columns in a card of about 850 px at 1440 px: smaller type, tighter cells and the
+    # numeric headings wrapped onto two lines make it fit (it scrolls sideways when not)
+    style["style_cell"] = {**style["style_cell"], "fontSize": "0.86rem", "padding": "5px 5px"}
+    style["style_header"] = {**style["style_header"], "fontSize": "0.84rem"}
+    style["style_cell_conditional"] = [
+        *style["style_cell_conditional"],
+        {
+            "if": {"column_id": "model"},
+            "whiteSpace": "normal",
+            "minWidth": "7rem",
+            "maxWidth": "10rem",
+        },
+    ]
+    style["style_header_conditional"] = [
+        {"if": {"column_id": c["id"]}, "maxWidth": "5rem", "minWidth": "3rem"}
+        for c in columns
+        if c.get("type") == "numeric"
+    ]
     return dash_table.DataTable(
-        id="bench-skill", columns=columns, data=[], sort_action="native", **_table_style()
+        id="bench-skill", columns=columns, data=[], sort_action="native", **style
     )
 
 
