@@ -99,3 +99,31 @@ def test_picking_a_model_carries_it_to_the_board(page, open_page, settle):
     expect(page.locator("#board-model-label")).to_have_text(label, timeout=COMPARE_MS)
     expect(page.locator("#board-model")).to_contain_text("picked on the Model Bench")
     expect(page.locator("#board-summary")).to_contain_text(label)
+
+
+def test_skill_table_fits_its_card_and_the_top_bar_keeps_clear_of_the_nav(page, open_page, settle):
+    # 1360 px wide (the suite's viewport, a common laptop width): the ten skill columns are not
+    # cut off at the card's edge, and the context items sit beside or below the nav links.
+    open_page(page, "/bench", settle=False)
+    _wait_for_results(page)
+    settle(page)
+    expect(page.locator("#bench-skill")).to_contain_text("last value", timeout=COMPARE_MS)
+    # the table stays inside its card: it fits, or scrolls sideways within the card
+    box = page.evaluate(
+        """() => { const e = document.querySelector('#bench-skill .dash-spreadsheet-container');
+             const card = e.closest('.hc-section').getBoundingClientRect();
+             return {right: e.getBoundingClientRect().right, card: card.right,
+                     overflow: getComputedStyle(e).overflowX,
+                     extra: e.scrollWidth - e.clientWidth}; }"""
+    )
+    assert box["right"] <= box["card"], box
+    assert box["extra"] <= 1 or box["overflow"] == "auto", box
+    overlaps = page.evaluate(
+        """() => {
+          const n = document.querySelector('.hc-nav').getBoundingClientRect();
+          return [...document.querySelectorAll('.hc-context__item')]
+            .map(e => e.getBoundingClientRect())
+            .filter(r => r.top < n.bottom && r.bottom > n.top && r.left < n.right).length;
+        }"""
+    )
+    assert overlaps == 0
