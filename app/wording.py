@@ -71,6 +71,11 @@ def hindcast_sentence(comparison: Comparison | None, model: str) -> str:
     n = len(comparison.hindcast.origins)
     if mine is None:
         return f"{model} was not among the models replayed on past years."
+    # Compare on the origins both forecast (the Model Bench's verdict and card do the same).
+    pair = comparison.hindcast.versus(LAST_VALUE, model)
+    if pair is not None and pair[0].forecasts:
+        mine, naive = pair
+        n = mine.origins
     if naive is None or math.isnan(naive.mase) or math.isnan(mine.mase) or not naive.mase:
         return (
             f"Replayed from {n} past origins, its forecasts missed by {mine.mae:,.3g} on average."

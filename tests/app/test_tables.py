@@ -85,3 +85,18 @@ def table_rows(table) -> list[list[str]]:
     """The body cells of an :func:`app.ui.html_table` as text, row by row."""
     body = table.children[1]
     return [[str(td.children) for td in tr.children] for tr in body.children]
+
+
+def test_board_hindcast_sentence_compares_on_the_verdicts_origins(failed_once: fc.Comparison):
+    from app.wording import hindcast_sentence
+
+    hc = failed_once.hindcast
+    n = len(hc.origins)
+    got = re.search(r"over (\d+) origins \((\d+\.\d\d) vs (\d+\.\d\d)", hc.verdict)
+    assert got is not None, hc.verdict
+    k, a, b = int(got[1]), float(got[2]), float(got[3])
+    sentence = hindcast_sentence(failed_once, failed_once.best.label)
+    # the Board's sentence counts the origins the verdict compares and quotes its percentage
+    assert f"each of the last {k} years" in sentence and k == n - 1, sentence
+    pct = int(re.search(r"(\d+)% (smaller|larger)", sentence)[1])
+    assert abs(pct - round(100 * abs(1 - a / b))) <= 1, sentence
