@@ -358,9 +358,10 @@ def _register_shell_callbacks(app: dash.Dash) -> None:
         Output("hc-context-model", "children"),
         Output("hc-global-alert", "children"),
         Output("hc-context-dataset", "title"),
+        Output("hc-context-series", "title"),
         Input(SELECTION_ID, "data"),
     )
-    @guarded("showing the current selection", outputs=6, alert_at=4)
+    @guarded("showing the current selection", outputs=7, alert_at=4)
     def show_context(data: Mapping[str, Any] | None) -> list[Any]:
         from app.store import get_store
 
@@ -384,6 +385,7 @@ def _register_shell_callbacks(app: dash.Dash) -> None:
             sel["model"] or "best by AICc",
             None,
             title,
+            sel["series"],  # the full name when a long one is cut short with an ellipsis
         ]
 
     @app.callback(
