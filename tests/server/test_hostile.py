@@ -379,7 +379,7 @@ def test_dot_dot_slash_in_a_file_name_never_becomes_a_path(keyed_server, client)
             "model.pkl",
             "binary file",
         ),
-        (b"", "empty.csv", "could not be decoded"),
+        (b"", "empty.csv", "the file is empty (0 bytes)"),
         (b"year,hake_t\n1990,=1+1\n1991,=cmd|' /C calc'!A0\n", "cells.csv", "0 usable"),
     ],
 )
