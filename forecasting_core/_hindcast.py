@@ -252,30 +252,39 @@ def _mase_on(rows: pd.DataFrame) -> float:
     return float(np.mean(err[ok] / scale[ok])) if ok.any() else math.nan
 
 
-def _common_rows(table: pd.DataFrame, a: str, b: str) -> tuple[pd.DataFrame, pd.DataFrame]:
-    """The rows of models ``a`` and ``b`` for the forecasts both made (same origin and step)."""
-    mine = table[table["model"] == a]
-    base = table[table["model"] == b]
-    # an inner join on (origin, step), without pandas' merge
-    mine_keys = list(zip(mine["origin"], mine["step"], strict=True))
-    base_keys = list(zip(base["origin"], base["step"], strict=True))
-    common = set(mine_keys) & set(base_keys)
-    mine = mine[np.array([k in common for k in mine_keys], dtype=bool)]
-    base = base[np.array([k in common for k in base_keys], dtype=bool)]
-    return mine, base
-
-
 def _paired_scores(
     table: pd.DataFrame, models: Sequence[tuple[str, str]]
 ) -> tuple[tuple[SkillScore, SkillScore], ...]:
     """Every two models scored on the forecasts both made, the earlier of ``models`` first.
 
-    ``models`` holds (label, kind) pairs.
+    ``models`` holds (label, kind) pairs. When two models forecast exactly the same
+    (origin, step) pairs, as they do unless a refit failed, their paired scores are their
+    own scores, computed once per model (the same rows in the same order: identical numbers).
     """
+    groups = {}
+    for label, kind in models:
+        rows = table[table["model"] == label]
+        keys = list(zip(rows["origin"], rows["step"], strict=True))
+        groups[label] = (rows, keys, frozenset(keys), kind)
+    whole: dict[str, SkillScore] = {}
+
+    def own(label: str) -> SkillScore:
+        if label not in whole:
+            rows, _keys, _set, kind = groups[label]
+            whole[label] = _score(label, kind, rows, int(rows["origin"].nunique()))
+        return whole[label]
+
     pairs = []
-    for i, (a, kind_a) in enumerate(models):
-        for b, kind_b in models[i + 1 :]:
-            mine, theirs = _common_rows(table, a, b)
+    for i, (a, _kind) in enumerate(models):
+        rows_a, keys_a, set_a, kind_a = groups[a]
+        for b, _kind_b in models[i + 1 :]:
+            rows_b, keys_b, set_b, kind_b = groups[b]
+            if set_a == set_b and len(keys_a) == len(set_a) and len(keys_b) == len(set_b):
+                pairs.append((own(a), own(b)))
+                continue
+            common = set_a & set_b
+            mine = rows_a[np.array([k in common for k in keys_a], dtype=bool)]
+            theirs = rows_b[np.array([k in common for k in keys_b], dtype=bool)]
             k = int(mine["origin"].nunique())
             pairs.append((_score(a, kind_a, mine, k), _score(b, kind_b, theirs, k)))
     return tuple(pairs)

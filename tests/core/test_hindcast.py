@@ -320,3 +320,43 @@ def test_coverage_warning_flags_bands_that_were_too_narrow(cover80, cover95, for
     assert (text is not None) == warns
     if warns:
         assert f"80% band held the outcome {cover80:.0f}%" in text
+
+
+def _reference_pair(table: pd.DataFrame, a: tuple[str, str], b: tuple[str, str]):
+    """Brute force: both models' rows restricted to the (origin, step) pairs both forecast."""
+    from forecasting_core._hindcast import _score
+
+    rows_a = table[table["model"] == a[0]]
+    rows_b = table[table["model"] == b[0]]
+    keys_a = list(zip(rows_a["origin"], rows_a["step"], strict=True))
+    keys_b = list(zip(rows_b["origin"], rows_b["step"], strict=True))
+    common = set(keys_a) & set(keys_b)
+    keep_a = [k in common for k in keys_a]
+    keep_b = [k in common for k in keys_b]
+    rows_a, rows_b = rows_a[keep_a], rows_b[keep_b]
+    k = int(rows_a["origin"].nunique())
+    return _score(a[0], a[1], rows_a, k), _score(b[0], b[1], rows_b, k)
+
+
+@pytest.mark.parametrize("drop", [None, ("m1", 2), ("m2", 0)])
+def test_paired_scores_equal_the_brute_force_pairing_with_and_without_failed_origins(drop):
+    from forecasting_core._hindcast import _paired_scores
+
+    rng = np.random.default_rng(7)
+    rows = []
+    for model in ("m1", "m2", "m3"):
+        for origin in range(4):
+            if drop is not None and (model, origin) == drop:
+                continue  # this model's refit failed at this origin
+            for step in (1, 2):
+                x, med = rng.normal(10, 2), rng.normal(10, 2)
+                row = {"model": model, "origin": origin, "step": step, "actual": x}
+                row.update(median=med, mean=med + 0.1, scale=1.5)
+                for level, half in ((50, 0.7), (80, 1.3), (95, 2.0)):
+                    row[f"lo{level}"], row[f"hi{level}"] = med - half, med + half
+                rows.append(row)
+    table = pd.DataFrame(rows)
+    models = [("m1", "arima"), ("m2", "arima"), ("m3", "benchmark")]
+    got = _paired_scores(table, models)
+    want = [_reference_pair(table, a, b) for i, a in enumerate(models) for b in models[i + 1 :]]
+    assert got == tuple(want)
