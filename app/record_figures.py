@@ -14,7 +14,8 @@ import pandas as pd
 import plotly.graph_objects as go
 
 import forecasting_core as fc
-from app.ui import FONT_FAMILY, PALETTE
+from app.figure_style import _style as shared_style
+from app.ui import PALETTE
 
 __all__ = ["record_figure", "record_x"]
 
@@ -198,36 +199,7 @@ def record_figure(
 
 
 def _style(fig: go.Figure, *, y_title: str, frequency: str, height: int) -> go.Figure:
-    fig.update_layout(
-        font={"family": FONT_FAMILY, "size": 13, "color": PALETTE["ink"]},
-        height=height,
-        margin={"l": 64, "r": 24, "t": 24, "b": 92},
-        paper_bgcolor="rgba(0,0,0,0)",
-        plot_bgcolor="#ffffff",
-        hovermode="x unified",
-        legend={
-            "orientation": "h",
-            "yref": "container",
-            "yanchor": "bottom",
-            "y": 0.0,
-            "xanchor": "left",
-            "x": 0.0,
-            "bgcolor": "rgba(255,255,255,0.6)",
-            "traceorder": "normal",  # one row, not one block per legend group
-        },
-        hoverlabel={"font": {"family": FONT_FAMILY}},
-    )
-    fig.update_yaxes(
-        title_text=y_title,
-        gridcolor=PALETTE["grid"],
-        linecolor=PALETTE["grid"],
-        zeroline=False,
-        separatethousands=True,
-    )
-    if frequency == "annual":
-        fig.update_xaxes(
-            tickformat="d", gridcolor=PALETTE["grid"], title_text="Year", zeroline=False
-        )
-    else:
-        fig.update_xaxes(type="date", gridcolor=PALETTE["grid"], title_text=None, zeroline=False)
+    """The app's shared chart look (:mod:`app.figure_style`), legend items in one row."""
+    shared_style(fig, title=None, y_title=y_title, frequency=frequency, height=height)
+    fig.update_layout(legend={"traceorder": "normal"})  # one row, not one block per group
     return fig
