@@ -1,0 +1,103 @@
+"""Arguments of the ``forecast`` and ``batch`` subcommands, and reading their FILE.
+
+Every check raises :class:`~forecasting_core._results.InputError` with the allowed values and
+what was given (exit code 2 in ``_cli_models``).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any
+
+from forecasting_core._results import InputError
+
+TRANSFORMS = ("none", "log", "boxcox", "auto")
+MAX_HORIZON = 30
+
+
+def _opt(args: Any, name: str, default: Any = None) -> Any:
+    return getattr(args, name, default)
+
+
+def parse_horizon(value: Any) -> int:
+    """``--horizon``: an integer from 1 to 30 (steps at the series' frequency)."""
+    text = "" if value is None or isinstance(value, bool) else str(value).strip()
+    if not re.fullmatch(r"\+?\d+", text) or not 1 <= int(text) <= MAX_HORIZON:
+        shown = text if re.fullmatch(r"[+-]?\d+", text) else repr(value)
+        raise InputError(
+            f"--horizon must be an integer from 1 to {MAX_HORIZON}. Got {shown} instead."
+        )
+    return int(text)
+
+
+def parse_ints(value: Any, count: int, option: str, example: str) -> tuple[int, ...] | None:
+    """``--order p,d,q`` / ``--seasonal P,D,Q,m``: comma-separated non-negative integers."""
+    if value is None:
+        return None
+    if isinstance(value, Sequence) and not isinstance(value, str):
+        parts = [str(v) for v in value]
+    else:
+        parts = [p.strip() for p in str(value).split(",")]
+    if len(parts) != count or not all(p.isdigit() for p in parts):
+        raise InputError(
+            f"{option} must be {count} non-negative integers separated by commas, such as "
+            f"{example}. Got {value if isinstance(value, str) else ','.join(parts)!r} instead."
+        )
+    return tuple(int(p) for p in parts)
+
+
+def parse_transform(value: Any) -> str:
+    value = "auto" if value is None else str(value)
+    if value not in TRANSFORMS:
+        raise InputError(
+            f"--transform must be one of {', '.join(TRANSFORMS)}. Got {value!r} instead."
+        )
+    return value
+
+
+def parse_reference(value: Any) -> float | None:
+    if value is None:
+        return None
+    try:
+        ref = float(value)
+    except (TypeError, ValueError):
+        ref = math.nan
+    if not math.isfinite(ref):
+        raise InputError(
+            f"--reference must be a number on the series' scale. Got {value!r} instead."
+        )
+    return ref
+
+
+def _read(path: Any):
+    from forecasting_core._table import read_table
+
+    if path is None or not Path(str(path)).is_file():
+        raise InputError(f"FILE must be an existing CSV or Excel file. Got {str(path)!r} instead.")
+    return read_table(str(path))
+
+
+def _no_series(table) -> InputError:
+    from forecasting_core._batch import problem_text
+
+    found = "; ".join(problem_text(p) for p in table.errors) or "no series columns were found."
+    return InputError(f"the file {table.source!r} has no usable series: {found}")
+
+
+def _pick_series(table, name: Any):
+    if name is None:
+        raise InputError("--series must name one series of the file.")
+    name = str(name)
+    if name in table.series:
+        return table.series[name]
+    if name in table.info:
+        from forecasting_core._batch import unusable_message
+
+        raise InputError(unusable_message(table, name))
+    if not table.info:
+        raise _no_series(table)
+    names = ", ".join(table.info)
+    raise InputError(f"--series must be one of {names}. Got {name!r} instead.")
