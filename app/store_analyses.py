@@ -14,17 +14,16 @@ shortest round-trip representation, so every number compares equal after reopeni
 
 from __future__ import annotations
 
-import copy
 import json
 import sqlite3
 import uuid
 from collections.abc import Iterator, Mapping
 from contextlib import contextmanager
-from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 import forecasting_core as fc
 from app.store_checks import (
+    DUPLICATE_SIGNOFF,
     REVISABLE,
     check_analysis_id,
     check_json,
@@ -34,111 +33,10 @@ from app.store_checks import (
     published_message,
 )
 from app.store_db import IMMUTABLE, now_utc
+from app.store_records import Analysis, SignOff
 
 if TYPE_CHECKING:
     from app.store_db import Database
-
-
-@dataclass(frozen=True)
-class SignOff:
-    """A named, dated approval of a published analysis.
-
-    Parameters
-    ----------
-    name, role : str
-        Who signed off and in which capacity (e.g. "stock lead").
-    note : str
-        Free text (may be empty).
-    signed_at : str
-        ISO 8601 UTC time, to the second.
-    """
-
-    name: str
-    role: str
-    note: str
-    signed_at: str
-
-    def to_dict(self) -> dict[str, str]:
-        return {
-            "name": self.name,
-            "role": self.role,
-            "note": self.note,
-            "signed_at": self.signed_at,
-        }
-
-
-@dataclass(frozen=True)
-class Analysis:
-    """One saved analysis (a version in a chain of revisions).
-
-    Parameters
-    ----------
-    id : str
-        32 lowercase hexadecimal digits (a random uuid4): unguessable and safe in URLs.
-    version : int
-        1, 2, ... within one chain of revisions (unique within the chain).
-    parent_id : str or None
-        The analysis this version revises (None for a first version).
-    dataset_id, series, title : str
-        The dataset (sha256), the series name in it, a display title (may be empty).
-    season : str
-        Label of the first forecast period, e.g. ``"2026"`` or ``"2026-07"`` (may be empty).
-    settings : dict
-        JSON: everything needed to restore the selection.
-    model : str
-        Label of the chosen candidate.
-    forecast : dict
-        ``Forecast.to_dict()`` of the saved forecast.
-    status : {"draft", "published"}
-    author, created_at, published_at : str
-        Times are ISO 8601 UTC to the second; ``published_at`` is None for a draft.
-    signoffs : tuple of SignOff
-        Oldest first.
-    published_by : str or None
-        Who published it (None for a draft).
-    """
-
-    id: str
-    version: int
-    parent_id: str | None
-    dataset_id: str
-    series: str
-    title: str
-    season: str
-    settings: dict
-    model: str
-    forecast: dict
-    status: str
-    author: str
-    created_at: str
-    published_at: str | None
-    signoffs: tuple[SignOff, ...] = ()
-    published_by: str | None = field(default=None)
-
-    @property
-    def is_published(self) -> bool:
-        return self.status == "published"
-
-    def to_dict(self) -> dict[str, Any]:
-        """Plain JSON-ready copy (changing it does not change the analysis)."""
-        return {
-            "id": self.id,
-            "version": self.version,
-            "parent_id": self.parent_id,
-            "dataset_id": self.dataset_id,
-            "series": self.series,
-            "title": self.title,
-            "season": self.season,
-            "settings": copy.deepcopy(self.settings),
-            "model": self.model,
-            "forecast": copy.deepcopy(self.forecast),
-            "status": self.status,
-            "author": self.author,
-            "created_at": self.created_at,
-            "published_at": self.published_at,
-            "published_by": self.published_by,
-            "signoffs": [s.to_dict() for s in self.signoffs],
-        }
 
 
 # ---------------------------------------------------------------------------------------------
@@ -317,6 +215,61 @@ class AnalysesMixin:
             )
         return self.get_analysis(analysis_id)
 
+    def delete_draft(self, analysis_id: str, *, author: str) -> Analysis:
+        """Delete a draft for good, at its author's request; return it as it was.
+
+        Only drafts: a published analysis is kept for good (the forecast record and sign-offs
+        rest on it; a SQLite trigger refuses its deletion too). Only by its author, the name
+        compared ignoring case (the board's "Your name"; there are no accounts, so this keeps
+        people from deleting a colleague's draft by mistake rather than by intent). A draft
+        that a later version revises is kept while that version exists (it links to it).
+        The checks and the deletion are one write transaction.
+
+        Parameters
+        ----------
+        analysis_id : str
+            The draft (32 hexadecimal digits).
+        author : str
+            Who asks; must be the draft's author.
+
+        Raises
+        ------
+        forecasting_core.InputError
+            When the id is malformed or unknown, the analysis is published, ``author`` is not
+            its author, or a later version revises it.
+        """
+        check_analysis_id(analysis_id)
+        author = check_text(author, "author")
+        with self._writing() as tx:
+            row = tx.execute(
+                f"SELECT {_COLUMNS} FROM analyses WHERE id = ?", (analysis_id,)
+            ).fetchone()
+            if row is None:
+                raise fc.InputError(_unknown(analysis_id))
+            found = _analysis(row, ())
+            if found.is_published:
+                raise fc.InputError(
+                    f"analysis {analysis_id} is published, and published analyses are never "
+                    "deleted (the forecast record and the sign-offs rest on them). Revise it "
+                    "to make a new version."
+                )
+            if found.author.casefold() != author.casefold():
+                raise fc.InputError(
+                    f"only the author of a draft can delete it: version {found.version} was "
+                    f"saved by {found.author}. Got {author!r} instead."
+                )
+            child = tx.execute(
+                "SELECT version FROM analyses WHERE parent_id = ? ORDER BY version LIMIT 1",
+                (analysis_id,),
+            ).fetchone()
+            if child is not None:
+                raise fc.InputError(
+                    f"version {found.version} cannot be deleted while version {child[0]} "
+                    f"revises it. Delete version {child[0]} first, or keep both."
+                )
+            tx.execute("DELETE FROM analyses WHERE id = ? AND status = 'draft'", (analysis_id,))
+        return found
+
     # -- reading ------------------------------------------------------------------------------
 
     def get_analysis(self, analysis_id: str) -> Analysis:
@@ -433,6 +386,11 @@ class AnalysesMixin:
             if IMMUTABLE in str(err):
                 raise fc.InputError(
                     "a published analysis cannot be changed. Revise it to make a new version."
+                ) from err
+            if "signoffs" in str(err) and "UNIQUE" in str(err):  # the index behind the check
+                raise fc.InputError(
+                    f"this name {DUPLICATE_SIGNOFF} this role; a second sign-off in the same "
+                    "role is not recorded."
                 ) from err
             raise
 

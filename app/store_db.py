@@ -19,6 +19,7 @@ rather than guessed at.
 from __future__ import annotations
 
 import json
+import logging
 import os
 import re
 import sqlite3
@@ -34,6 +35,7 @@ import forecasting_core as fc
 DB_NAME = "haulcast.sqlite3"
 BUSY_TIMEOUT_MS = 15_000
 _HEX64 = re.compile(r"^[0-9a-f]{64}$")
+logger = logging.getLogger("haulcast.store")
 
 #: Message raised by the triggers that keep published analyses, sign-offs and datasets unchanged.
 IMMUTABLE = "haulcast: immutable row"
@@ -172,9 +174,94 @@ def _split_sql(script: str) -> list[str]:
     return out
 
 
+#: Sign-offs a migration took out of ``signoffs`` are kept here, never deleted outright.
+_V2_SET_ASIDE = f"""
+CREATE TABLE signoffs_set_aside (
+    seq          INTEGER PRIMARY KEY,
+    analysis_id  TEXT NOT NULL,
+    name         TEXT NOT NULL,
+    role         TEXT NOT NULL,
+    note         TEXT NOT NULL,
+    signed_at    TEXT NOT NULL,
+    kept_seq     INTEGER NOT NULL,
+    reason       TEXT NOT NULL,
+    set_aside_at TEXT NOT NULL
+);
+CREATE TRIGGER signoffs_set_aside_are_fixed BEFORE UPDATE ON signoffs_set_aside
+BEGIN SELECT RAISE(ABORT, '{IMMUTABLE}'); END;
+CREATE TRIGGER signoffs_set_aside_are_kept BEFORE DELETE ON signoffs_set_aside
+BEGIN SELECT RAISE(ABORT, '{IMMUTABLE}'); END;
+"""
+_SIGNOFFS_ARE_KEPT = (
+    "CREATE TRIGGER signoffs_are_kept BEFORE DELETE ON signoffs\n"
+    f"BEGIN SELECT RAISE(ABORT, '{IMMUTABLE}'); END;"
+)
+#: One sign-off per analysis, name and role. The store compares names and roles with Python's
+#: ``casefold`` before inserting; SQLite's NOCASE folds ASCII letters only, so the index never
+#: refuses what the store's check let through, and it holds for any other writer of the file.
+_SIGNOFFS_ONCE = (
+    "CREATE UNIQUE INDEX signoffs_once ON signoffs"
+    " (analysis_id, name COLLATE NOCASE, role COLLATE NOCASE)"
+)
+
+
+def _migrate_2(conn: sqlite3.Connection, data_dir: Path) -> str:
+    """Make sign-offs unique per (analysis, name, role) in the database itself.
+
+    A folder from before this index may hold repeats (a double click on Sign off used to record
+    two). Of each set of sign-offs with the same analysis, name and role (compared ignoring case,
+    as the store does) the earliest is kept in ``signoffs``; the later ones move, unchanged, to
+    ``signoffs_set_aside`` with the ``seq`` of the one kept, and the migration's note in
+    ``schema_version`` (and the server log) says how many.
+    """
+    for statement in _split_sql(_V2_SET_ASIDE):
+        conn.execute(statement)
+    kept: dict[tuple[str, str, str], int] = {}
+    repeats: list[tuple[int, int, str]] = []
+    for seq, analysis_id, name, role in conn.execute(
+        "SELECT seq, analysis_id, name, role FROM signoffs ORDER BY seq"
+    ).fetchall():
+        key = (analysis_id, str(name).casefold(), str(role).casefold())
+        if key in kept:
+            repeats.append((seq, kept[key], analysis_id))
+        else:
+            kept[key] = seq
+    if repeats:
+        moved_at = now_utc()
+        conn.execute("DROP TRIGGER signoffs_are_kept")
+        for seq, kept_seq, _analysis in repeats:
+            conn.execute(
+                "INSERT INTO signoffs_set_aside (seq, analysis_id, name, role, note, signed_at,"
+                " kept_seq, reason, set_aside_at)"
+                " SELECT seq, analysis_id, name, role, note, signed_at, ?, ?, ? FROM signoffs"
+                " WHERE seq = ?",
+                (
+                    kept_seq,
+                    "a repeat of an earlier sign-off in the same name and role",
+                    moved_at,
+                    seq,
+                ),
+            )
+            conn.execute("DELETE FROM signoffs WHERE seq = ?", (seq,))
+        conn.execute(_SIGNOFFS_ARE_KEPT)
+    conn.execute(_SIGNOFFS_ONCE)
+    note = "sign-offs unique per analysis, name and role"
+    if repeats:
+        analyses = len({analysis_id for _, _, analysis_id in repeats})
+        note += (
+            f"; {len(repeats)} repeated sign-off(s) on {analyses} analysis(es) set aside in"
+            " signoffs_set_aside (the earliest of each name and role kept)"
+        )
+        logger.warning("Store migration 2 in %s: %s.", data_dir, note)
+    return note
+
+
 #: Forward migrations: (version, function(conn, data_dir) -> note). Append only; never edit one
 #: that has shipped.
-MIGRATIONS: tuple[tuple[int, Callable[[sqlite3.Connection, Path], str]], ...] = ((1, _migrate_1),)
+MIGRATIONS: tuple[tuple[int, Callable[[sqlite3.Connection, Path], str]], ...] = (
+    (1, _migrate_1),
+    (2, _migrate_2),
+)
 SCHEMA_VERSION = MIGRATIONS[-1][0]
 
 

@@ -284,6 +284,65 @@ def test_a_note_keeps_its_line_breaks(store, draft):
     assert signed.signoffs[0].note == "line one\nline two"
 
 
+# -- deleting drafts --------------------------------------------------------------------------
+
+
+def test_an_author_can_delete_their_own_draft(store, draft):
+    gone = store.delete_draft(draft.id, author="ana ruiz")  # the name, ignoring case
+    assert gone == draft
+    with pytest.raises(fc.InputError, match=f"analysis {draft.id} was not found"):
+        store.get_analysis(draft.id)
+    assert draft.id not in {a.id for a in store.list_analyses()}
+    with pytest.raises(fc.InputError, match="was not found"):  # a second click finds nothing
+        store.delete_draft(draft.id, author="Ana Ruiz")
+
+
+def test_a_published_analysis_is_never_deleted(store, draft):
+    store.publish(draft.id, author="Ana Ruiz")
+    with pytest.raises(fc.InputError, match="is published, and published analyses are never"):
+        store.delete_draft(draft.id, author="Ana Ruiz")
+    assert store.get_analysis(draft.id).is_published
+
+
+def test_someone_else_cannot_delete_a_draft(store, draft):
+    with pytest.raises(
+        fc.InputError,
+        match="only the author of a draft can delete it: version 1 was saved by Ana Ruiz. "
+        "Got 'Ben' instead",
+    ):
+        store.delete_draft(draft.id, author="Ben")
+    assert store.get_analysis(draft.id) == draft
+
+
+def test_a_draft_another_version_revises_is_kept_until_that_one_is_deleted(store, draft):
+    v2 = store.revise(draft.id, author="Ana Ruiz", title="second try")
+    with pytest.raises(fc.InputError, match="version 1 cannot be deleted while version 2 revises"):
+        store.delete_draft(draft.id, author="Ana Ruiz")
+    store.delete_draft(v2.id, author="Ana Ruiz")
+    store.delete_draft(draft.id, author="Ana Ruiz")
+    assert draft.id not in {a.id for a in store.list_analyses()}
+
+
+def test_deleting_the_newest_draft_leaves_the_published_versions_and_their_sign_offs(store, draft):
+    store.publish(draft.id, author="Ana Ruiz")
+    store.add_signoff(draft.id, name="Dee", role="lead", note="")
+    v2 = store.revise(draft.id, author="Ana Ruiz", title="next")
+    store.delete_draft(v2.id, author="Ana Ruiz")
+    assert [a.version for a in store.history(draft.id)] == [1]
+    assert [s.name for s in store.get_analysis(draft.id).signoffs] == ["Dee"]
+    # the chain goes on: the next revision takes the number that is free again
+    assert store.revise(draft.id, author="Ana Ruiz").version == 2
+
+
+@pytest.mark.parametrize(
+    ("author", "message"),
+    [("", "author must not be empty"), ("x" * 81, "author must be at most 80 characters")],
+)
+def test_a_delete_needs_a_name(store, draft, author, message):
+    with pytest.raises(fc.InputError, match=message):
+        store.delete_draft(draft.id, author=author)
+
+
 # -- listing and search -----------------------------------------------------------------------
 
 
@@ -391,9 +450,13 @@ def test_text_is_stripped_and_inner_whitespace_collapsed(store, dataset_id):
         ("f" * 32, f"analysis {'f' * 32} was not found on this server"),
     ],
 )
-@pytest.mark.parametrize("method", ["get_analysis", "publish", "add_signoff", "revise", "history"])
+@pytest.mark.parametrize(
+    "method", ["get_analysis", "publish", "add_signoff", "revise", "history", "delete_draft"]
+)
 def test_unknown_and_malformed_ids_are_named(store, bad_id, message, method):
     kwargs = {"publish": {"author": "a"}, "revise": {"author": "a"}}.get(method, {})
+    if method == "delete_draft":
+        kwargs = {"author": "a"}
     if method == "add_signoff":
         kwargs = {"name": "a", "role": "b", "note": ""}
     with pytest.raises(fc.InputError, match=message):
