@@ -7,7 +7,6 @@ ever printed.
 
 from __future__ import annotations
 
-import csv
 import sys
 import warnings
 from pathlib import Path
@@ -32,8 +31,10 @@ from forecasting_core._cli_writers import (
     _dump,
     _forecast_csv_head,
     comment_line,
+    csv_line,
     csv_rows,
     safe_cell,
+    write_csv_rows,
     write_forecast_csv,
 )
 from forecasting_core._results import CAUTIONS, InputError
@@ -45,6 +46,7 @@ __all__ = [
     "TRANSFORMS",
     "JsonListWriter",
     "comment_line",
+    "csv_line",
     "csv_rows",
     "forecast_text",
     "hindcast_lines",
@@ -165,7 +167,7 @@ def _batch(args: Any) -> int:
         files.append(models_fh)
         rows_fh = open(out / "forecasts.csv.partial", "w", newline="", encoding="utf-8")
         files.append(rows_fh)
-        models, rows = JsonListWriter(models_fh), csv.writer(rows_fh)
+        models, rows = JsonListWriter(models_fh), rows_fh
         _forecast_csv_head(rows_fh, table.source)
     stdout_json = JsonListWriter(sys.stdout) if as_json else None
     ok = 0
@@ -176,7 +178,7 @@ def _batch(args: Any) -> int:
         for r in records:
             if models is not None and rows is not None:
                 models.add(r)
-                rows.writerows(csv_rows(r) if "error" not in r else [])
+                write_csv_rows(rows, csv_rows(r) if "error" not in r else [])
             if stdout_json is not None:
                 stdout_json.add(r)
             if "error" in r:

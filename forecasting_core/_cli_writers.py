@@ -6,12 +6,11 @@ The forecast CSV holds comment lines (source, cautions) and then the table, so t
 
 from __future__ import annotations
 
-import csv
 import json
 import math
 import re
 import textwrap
-from collections.abc import Sequence
+from collections.abc import Iterable, Sequence
 from pathlib import Path
 from typing import Any, TextIO
 
@@ -26,6 +25,8 @@ CSV_COLUMNS = (
 #: A cell a spreadsheet would run as a formula starts with one of these.
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 _PLAIN_NUMBER = re.compile(r"^-?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$")
+#: A cell holding one of these is quoted (see :func:`csv_line`).
+_QUOTED = re.compile(r'[,"\r\n#]')
 
 
 def safe_cell(value: Any) -> str:
@@ -92,7 +93,32 @@ def _forecast_csv_head(fh: TextIO, source: str | None) -> None:
     fh.write(comment_line(f"Haulcast forecasts{' from ' + source if source else ''}") + "\r\n")
     for c in CAUTIONS:
         fh.write(comment_line(f"Caution: {c}") + "\r\n")
-    csv.writer(fh).writerow(list(CSV_COLUMNS))
+    fh.write(csv_line(CSV_COLUMNS))
+
+
+def csv_line(cells: Sequence[str]) -> str:
+    """One CSV row (comma-separated, ``\\r\\n`` line end) that ``comment="#"`` keeps whole.
+
+    Cells are quoted as the csv module quotes them (a comma, double quote or line break
+    inside; quotes doubled), and also when they hold ``#``: ``pandas.read_csv(path,
+    comment="#")`` cuts an unquoted row at its ``#`` (a series named ``Stock #3`` would lose
+    the rest of its row), while its default C parser keeps ``#`` inside a quoted cell. Rows
+    without ``#`` come out exactly as ``csv.writer`` writes them.
+    """
+    out = []
+    for cell in cells:
+        text = str(cell)
+        if _QUOTED.search(text):
+            text = '"' + text.replace('"', '""') + '"'
+        out.append(text)
+    if len(out) == 1 and not out[0]:
+        out[0] = '""'  # a row with one empty cell, as csv.writer writes it
+    return ",".join(out) + "\r\n"
+
+
+def write_csv_rows(fh: TextIO, rows: Iterable[Sequence[str]]) -> None:
+    """Write rows with :func:`csv_line` (``fh`` opened with ``newline=""``)."""
+    fh.writelines(csv_line(row) for row in rows)
 
 
 def write_forecast_csv(
@@ -100,13 +126,13 @@ def write_forecast_csv(
 ) -> None:
     """Write forecast rows after comment lines holding the source and the cautions.
 
-    ``pandas.read_csv(path, comment="#")`` reads the table (:data:`CSV_COLUMNS`).
+    ``pandas.read_csv(path, comment="#")`` reads the table (:data:`CSV_COLUMNS`), cells with
+    ``#`` included (they are quoted, see :func:`csv_line`).
     """
     with open(path, "w", newline="", encoding="utf-8") as fh:
         _forecast_csv_head(fh, source)
-        w = csv.writer(fh)
         for record in records:
-            w.writerows(csv_rows(record))
+            write_csv_rows(fh, csv_rows(record))
 
 
 def _dump(obj: Any, out: TextIO) -> None:
