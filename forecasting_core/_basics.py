@@ -70,6 +70,16 @@ def time_label(period: pd.Period) -> str:
 
 def _clean(value: Any) -> Any:
     """Turn numpy scalars, NaN and tuples into JSON-ready Python values."""
+    kind = type(value)
+    # The common plain types first (a record holds thousands of them): same answers as below.
+    if kind is float:
+        return value if math.isfinite(value) else None
+    if kind is str or kind is int or kind is bool or value is None:
+        return value
+    if kind is dict:
+        return {k if type(k) is str else str(k): _clean(v) for k, v in value.items()}
+    if kind is list or kind is tuple:
+        return [v if type(v) is float and math.isfinite(v) else _clean(v) for v in value]
     if isinstance(value, Mapping):
         return {str(k): _clean(v) for k, v in value.items()}
     if isinstance(value, list | tuple | np.ndarray):

@@ -169,13 +169,7 @@ def forecast_record(
         "frequency": comparison.frequency,
         "transform": comparison.transform.to_dict(),
         "model": best.model_dict(),
-        "candidates": [
-            {
-                k: c.to_dict()[k]
-                for k in ("label", "order", "seasonal_order", "aicc", "delta_aicc", "weight")
-            }
-            for c in comparison.accepted
-        ],
+        "candidates": [c.brief_dict() for c in comparison.accepted],
         "hindcast": hindcast_summary(comparison),
         "forecast": forecast.rows(),
         "warnings": warnings,

@@ -123,6 +123,19 @@ class Candidate:
             }
         )
 
+    def brief_dict(self) -> dict[str, Any]:
+        """The entry of the JSON contract's ``candidates`` list (keys as in :meth:`to_dict`)."""
+        return _clean(
+            {
+                "label": self.label,
+                "order": list(self.order),
+                "seasonal_order": list(self.seasonal_order) if self.seasonal_order else None,
+                "aicc": self.aicc,
+                "delta_aicc": self.delta_aicc,
+                "weight": self.weight,
+            }
+        )
+
     def model_dict(self) -> dict[str, Any]:
         """The ``model`` object of the JSON contract."""
         return _clean(
@@ -453,20 +466,7 @@ class Comparison:
                 "frequency": self.frequency,
                 "transform": self.transform.to_dict(),
                 "model": self.best.model_dict(),
-                "candidates": [
-                    {
-                        k: c.to_dict()[k]
-                        for k in (
-                            "label",
-                            "order",
-                            "seasonal_order",
-                            "aicc",
-                            "delta_aicc",
-                            "weight",
-                        )
-                    }
-                    for c in self.accepted
-                ],
+                "candidates": [c.brief_dict() for c in self.accepted],
                 "rejected": [{"label": c.label, "reason": c.reason} for c in self.rejected],
                 "hindcast": self.hindcast.to_dict() if self.hindcast else None,
                 "diagnostics": self.diagnostics.to_dict() if self.diagnostics else None,
@@ -541,17 +541,21 @@ class Forecast:
 
     def rows(self) -> list[dict[str, Any]]:
         """The ``forecast`` list of the JSON contract."""
+        t = self.table
+        cols = {c: t[c].tolist() for c in t.columns}  # plain Python values, one pass per column
         out = []
-        for _, r in self.table.iterrows():
+        for i in range(len(t)):
             out.append(
                 _clean(
                     {
-                        "time": r["time"],
-                        "step": int(r["step"]),
-                        "mean": r["mean"],
-                        "median": r["median"],
-                        "intervals": {str(lv): [r[f"lo{lv}"], r[f"hi{lv}"]] for lv in self.levels},
-                        "prob_below_reference": r["prob_below_reference"]
+                        "time": cols["time"][i],
+                        "step": int(cols["step"][i]),
+                        "mean": cols["mean"][i],
+                        "median": cols["median"][i],
+                        "intervals": {
+                            str(lv): [cols[f"lo{lv}"][i], cols[f"hi{lv}"][i]] for lv in self.levels
+                        },
+                        "prob_below_reference": cols["prob_below_reference"][i]
                         if self.reference is not None
                         else None,
                     }
