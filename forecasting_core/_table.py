@@ -29,6 +29,10 @@ Rules (the README and ``check`` report refer to these):
   the first sheet is read (the report says which). Text may be UTF-8 with or without BOM,
   UTF-16 with BOM, else Windows-1252/Latin-1 (warning); delimiters comma, semicolon, tab or bar;
   a ``sep=;`` first line is honoured; title lines above the header are skipped (warning).
+* **Comment lines.** A line starting with an unquoted ``#`` is a comment (as for
+  ``pandas.read_csv(comment="#")``): skipped with a warning naming its rows, above the header or
+  inside the table (unless another of its cells holds a time); a header written ``#year,...``
+  is read as the header. A ``#`` inside a cell (``Stock #3``, a note) is ordinary text.
 * **Numbers.** Decimal point or comma is chosen from unambiguous cells (``12.5`` vs ``12,5``);
   the other mark is accepted as thousands separator only in groups of three (``1,234.5``,
   ``1.234,5``, ``1 234,5``). Empty, ``NA``, ``-``, ``..`` and similar are missing values (warning).
@@ -55,6 +59,11 @@ from pathlib import Path
 import pandas as pd
 
 from forecasting_core._results import InputError, Problem, SeriesInfo, Table
+from forecasting_core._table_comments import (
+    comments_above,
+    drop_comments_in_table,
+    header_written_as_comment,
+)
 from forecasting_core._table_parse import (
     Grid,
     cell_text,
@@ -193,15 +202,36 @@ class _Reader(RowsMixin):
     # -- main ----------------------------------------------------------------------------
     def read(self) -> Table:
         rows = self.grid.rows
-        filled = [i for i, r in enumerate(rows) if any(not is_empty(c) for c in r)]
+        comments = set(self.grid.comment_rows)
+        filled = [
+            i for i, r in enumerate(rows) if i not in comments and any(not is_empty(c) for c in r)
+        ]
+        if not filled and comments:
+            raise InputError(
+                f"the file must hold a table. Got only comment lines instead "
+                f"({rows_text(sorted(i + 1 for i in comments))} start with '#'); remove the '#' at "
+                "the start of the header and data rows."
+            )
         if not filled:
             raise InputError(
                 "the file is empty (no cell has a value). Export the sheet again with its header and values."
             )
         h = self._header_index(rows, filled)
+        as_comment = header_written_as_comment(rows, h, comments)
+        if as_comment is not None:
+            h = as_comment[0]
+            self.file_problems.append(as_comment[1])
+        above = comments_above(rows, h, comments)
+        if above is not None:
+            self.file_problems.append(above)
         header_raw = rows[h]
-        width = max(len(header_raw), max(len(r) for r in rows))
-        data = [(i + 1, list(r) + [None] * (width - len(r))) for i, r in enumerate(rows) if i > h]
+        data, inside = drop_comments_in_table(
+            [(i + 1, r) for i, r in enumerate(rows) if i > h], comments
+        )
+        if inside is not None:
+            self.file_problems.append(inside)
+        width = max(len(header_raw), max((len(r) for _, r in data), default=0))
+        data = [(row, list(r) + [None] * (width - len(r))) for row, r in data]
         header = [cell_text(c).strip() for c in header_raw] + [""] * (width - len(header_raw))
         data = self._drop_empty_rows(data)
         if not data:

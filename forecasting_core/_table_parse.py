@@ -53,6 +53,25 @@ class Grid:
     rows: list[list[Cell]]
     delimiter: str | None = None
     notes: list[Problem] = field(default_factory=list)
+    #: Indexes into ``rows`` of comment lines: the line starts with ``#`` (see
+    #: :func:`is_comment_cell`); in a CSV the ``#`` must not be inside quotes.
+    comment_rows: set[int] = field(default_factory=set)
+
+
+#: Spreadsheet error values (``#N/A``, ``#DIV/0!``, ``#VALUE!``, ``#NAME?``): cells, not comments.
+_SHEET_ERROR = re.compile(r"#(?:N/A|[A-Za-z][A-Za-z0-9/_.]*[!?])")
+
+
+def is_comment_cell(cell: Cell) -> bool:
+    """True when a row's first cell makes it a comment line: text starting with ``#``.
+
+    This is how ``pandas.read_csv(path, comment="#")`` and Haulcast's own exports mark such
+    lines (common practice in data files); spreadsheet error values such as ``#N/A`` are cells.
+    """
+    if not isinstance(cell, str):
+        return False
+    text = cell.strip()
+    return text.startswith("#") and not _SHEET_ERROR.fullmatch(text)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -141,7 +160,8 @@ def sniff_delimiter(text: str) -> str:
 def text_grid(text: str) -> Grid:
     """Split decoded text into rows of stripped cells (CRLF, CR and LF line ends).
 
-    A first line ``sep=;`` (a spreadsheet's delimiter hint) sets the delimiter.
+    A first line ``sep=;`` (a spreadsheet's delimiter hint) sets the delimiter. Lines that start
+    with an unquoted ``#`` are marked in ``Grid.comment_rows`` (a ``#`` inside a cell is text).
     """
     first = text[:8].lower()
     delim = (
@@ -150,11 +170,26 @@ def text_grid(text: str) -> Grid:
         else sniff_delimiter(text)
     )
     csv.field_size_limit(max(csv.field_size_limit(), 64 * 1024 * 1024))
-    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delim)
+    lines = io.StringIO(text, newline="")
+    pulled: list[str] = []  # physical lines of the record being read (only when '#' occurs)
+
+    def pull():
+        for line in lines:
+            pulled.append(line)
+            yield line
+
+    has_hash = "#" in text
+    reader = csv.reader(pull() if has_hash else lines, delimiter=delim)
     rows: list[list[Cell]] = []
     notes: list[Problem] = []
+    comments: set[int] = set()
     try:
         for record in reader:
+            if has_hash:
+                # A comment line starts with an unquoted '#': pandas' C parser keeps a quoted one.
+                if pulled and pulled[0].lstrip(" ").startswith("#") and is_comment_cell(record[0]):
+                    comments.add(len(rows))
+                pulled.clear()
             rows.append([cell.strip() for cell in record])
             if any("\n" in c or "\r" in c for c in record):
                 notes.append(
@@ -166,7 +201,7 @@ def text_grid(text: str) -> Grid:
                 )
     except csv.Error as exc:
         raise InputError(f"row {len(rows) + 1} cannot be read as CSV: {exc}.") from None
-    return Grid(rows=rows, delimiter=delim, notes=notes)
+    return Grid(rows=rows, delimiter=delim, notes=notes, comment_rows=comments)
 
 
 # ---------------------------------------------------------------------------------------------

@@ -6,7 +6,7 @@ import io
 import warnings
 
 from forecasting_core._results import InputError, Problem
-from forecasting_core._table_parse import Grid
+from forecasting_core._table_parse import Grid, is_comment_cell
 
 
 def xlsx_grid(data: bytes) -> Grid:
@@ -58,7 +58,8 @@ def xlsx_grid(data: bytes) -> Grid:
                 f"(not {others}). Move the data to the first sheet to read another one.",
             )
         )
-    return Grid(rows=rows, delimiter=None, notes=notes)
+    comments = {i for i, row in enumerate(rows) if row and is_comment_cell(row[0])}
+    return Grid(rows=rows, delimiter=None, notes=notes, comment_rows=comments)
 
 
 def _unsaved_formulas(openpyxl, data: bytes, sheet_name: str, values: list[list]):
