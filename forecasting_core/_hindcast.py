@@ -42,55 +42,39 @@ import numpy as np
 import pandas as pd
 from scipy.stats import norm
 
+from forecasting_core import _benchmarks
 from forecasting_core._benchmarks import fit_benchmark, predict_benchmark
+from forecasting_core._hindcast_scores import (  # noqa: F401 - re-exported
+    ERROR_COLUMNS,
+    LEVELS,
+    _paired_scores,
+    _score,
+    empty_block,
+    errors_frame,
+    interval_score,
+    paired_blocks,
+    score_block,
+    verdict,
+)
 from forecasting_core._results import (
     Benchmark,
     Candidate,
     Hindcast,
     InputError,
-    SkillScore,
     TransformSpec,
     period_length,
     time_label,
 )
 
-#: Band levels scored by the hindcast (percent).
-LEVELS = (80, 95)
 MAX_ORIGINS_DEFAULT = 10
 #: Standard normal quantiles of the band ends (scipy's norm.ppf, computed once).
 _Z = {level: float(norm.ppf(0.5 + level / 200.0)) for level in LEVELS}
+#: Forecast columns of one origin (original scale).
+_OUT = ("mean", "median", "lo80", "hi80", "lo95", "hi95")
 METHODS = {
     "refit": "refit at every origin",
     "fixed": "fixed parameters (estimated on the full series), filtered to each origin",
 }
-ERROR_COLUMNS = [
-    "model", "origin", "step", "time", "actual", "mean", "median", "lo80", "hi80", "lo95", "hi95",
-]  # fmt: skip
-
-
-def interval_score(lo: np.ndarray, hi: np.ndarray, x: np.ndarray, alpha: float) -> np.ndarray:
-    """Interval score of central (1 - alpha) bands (Gneiting & Raftery 2007, section 6.2).
-
-    Parameters
-    ----------
-    lo, hi : numpy.ndarray
-        Lower and upper band ends (original scale).
-    x : numpy.ndarray
-        Outcomes.
-    alpha : float
-        0.2 for an 80% band, 0.05 for a 95% band.
-
-    Returns
-    -------
-    numpy.ndarray
-        ``(hi - lo) + 2/alpha (lo - x) 1{x < lo} + 2/alpha (x - hi) 1{x > hi}``; lower is better.
-    """
-    lo, hi, x = (np.asarray(a, dtype=float) for a in (lo, hi, x))
-    return (
-        (hi - lo)
-        + (2.0 / alpha) * np.where(x < lo, lo - x, 0.0)
-        + (2.0 / alpha) * np.where(x > hi, x - hi, 0.0)
-    )
 
 
 def naive_scale(y: pd.Series | np.ndarray, lag: int = 1) -> float:
@@ -213,128 +197,79 @@ def _label(model: Candidate | Benchmark) -> str:
     return model.label
 
 
-def _score(label: str, kind: str, rows: pd.DataFrame, n_origins: int) -> SkillScore:
-    if rows.empty:
-        nan = math.nan
-        return SkillScore(label, kind, 0, 0, nan, nan, nan, nan, nan, nan, nan)
-    x = rows["actual"].to_numpy(float)
-    abs_err = np.abs(x - rows["median"].to_numpy(float))
-    sq_err = (x - rows["mean"].to_numpy(float)) ** 2
-    scale = rows["scale"].to_numpy(float)
-    usable = np.isfinite(scale) & (scale > 0)
-    mase = float(np.mean(abs_err[usable] / scale[usable])) if usable.any() else math.nan
-    cover = {}
-    iscore = {}
-    for level in LEVELS:
-        lo = rows[f"lo{level}"].to_numpy(float)
-        hi = rows[f"hi{level}"].to_numpy(float)
-        cover[level] = float(100.0 * np.mean((x >= lo) & (x <= hi)))
-        iscore[level] = float(np.mean(interval_score(lo, hi, x, 1 - level / 100.0)))
-    return SkillScore(
-        model=label,
-        kind=kind,
-        origins=n_origins,
-        forecasts=len(rows),
-        mae=float(abs_err.mean()),
-        rmse=float(math.sqrt(sq_err.mean())),
-        mase=mase,
-        coverage80=cover[80],
-        coverage95=cover[95],
-        interval_score80=iscore[80],
-        interval_score95=iscore[95],
-    )
-
-
-def _mase_on(rows: pd.DataFrame) -> float:
-    scale = rows["scale"].to_numpy(float)
-    err = np.abs(rows["actual"].to_numpy(float) - rows["median"].to_numpy(float))
-    ok = np.isfinite(scale) & (scale > 0)
-    return float(np.mean(err[ok] / scale[ok])) if ok.any() else math.nan
-
-
-def _paired_scores(
-    table: pd.DataFrame, models: Sequence[tuple[str, str]]
-) -> tuple[tuple[SkillScore, SkillScore], ...]:
-    """Every two models scored on the forecasts both made, the earlier of ``models`` first.
-
-    ``models`` holds (label, kind) pairs. When two models forecast exactly the same
-    (origin, step) pairs, as they do unless a refit failed, their paired scores are their
-    own scores, computed once per model (the same rows in the same order: identical numbers).
-    """
-    groups = {}
-    for label, kind in models:
-        rows = table[table["model"] == label]
-        keys = list(zip(rows["origin"], rows["step"], strict=True))
-        groups[label] = (rows, keys, frozenset(keys), kind)
-    whole: dict[str, SkillScore] = {}
-
-    def own(label: str) -> SkillScore:
-        if label not in whole:
-            rows, _keys, _set, kind = groups[label]
-            whole[label] = _score(label, kind, rows, int(rows["origin"].nunique()))
-        return whole[label]
-
-    pairs = []
-    for i, (a, _kind) in enumerate(models):
-        rows_a, keys_a, set_a, kind_a = groups[a]
-        for b, _kind_b in models[i + 1 :]:
-            rows_b, keys_b, set_b, kind_b = groups[b]
-            if set_a == set_b and len(keys_a) == len(set_a) and len(keys_b) == len(set_b):
-                pairs.append((own(a), own(b)))
-                continue
-            common = set_a & set_b
-            mine = rows_a[np.array([k in common for k in keys_a], dtype=bool)]
-            theirs = rows_b[np.array([k in common for k in keys_b], dtype=bool)]
-            k = int(mine["origin"].nunique())
-            pairs.append((_score(a, kind_a, mine, k), _score(b, kind_b, theirs, k)))
-    return tuple(pairs)
-
-
-def _verdict(
-    chosen: str,
-    naive: str,
-    table: pd.DataFrame,
-    n_origins: int,
-    skipped: list[str],
-    paired: Sequence[tuple[SkillScore, SkillScore]] = (),
-) -> str:
-    mine = table[table["model"] == chosen]
-    if mine.empty:
-        return (
-            f"{chosen} could not be scored: no refit gave a forecast at any of the "
-            f"{n_origins} origins."
-        )
-    if chosen == naive:
-        return (
-            f"The chosen model is the last value itself (MASE {_mase_on(mine):.2f} over "
-            f"{mine['origin'].nunique()} origins)."
-        )
-    # the same pair of scores the benchmark table shows beside the model
-    pair = next((p for p in paired if (p[0].model, p[1].model) == (chosen, naive)), None)
-    if pair is None:
-        pair = _paired_scores(table, [(chosen, "arima"), (naive, "benchmark")])[0]
-    a, b = pair[0].mase, pair[1].mase
-    k = pair[0].origins
-    where = f"over {k} origin{'s' if k != 1 else ''}"
-    if not (math.isfinite(a) and math.isfinite(b)) or b == 0:
-        text = f"{chosen} could not be compared with the last value on MASE {where}."
-    elif a < b:
-        pct = 100.0 * (1.0 - a / b)
-        by = f"by {pct:.0f}%" if pct >= 0.5 else "by less than 1%"
-        text = f"{chosen} beat the last value {by} on MASE {where} ({a:.2f} vs {b:.2f})."
+def _bench_fit(key: str, z: np.ndarray, m: int) -> tuple[float, float | None]:
+    """(sigma2, drift) of :func:`fit_benchmark` on transformed values ``z`` (same numbers)."""
+    obs = _benchmarks._observed_positions(z)
+    need = _benchmarks._need
+    drift: float | None = None
+    if key == "naive":
+        e = _benchmarks._lag_differences(z, 1)
+        need(key, len(e), 1, "pair of consecutive observed periods")
+        sigma2 = float(np.sum(e**2) / len(e))
+    elif key == "drift":
+        e = _benchmarks._lag_differences(z, 1)
+        need(key, len(e), 2, "pairs of consecutive observed periods")
+        first, last = obs[0], obs[-1]
+        drift = float((z[last] - z[first]) / (last - first))
+        sigma2 = float(np.sum((e - drift) ** 2) / (len(e) - 1))
+    elif key == "mean":
+        zo = z[obs]
+        need(key, len(zo), 2, "observed values")
+        sigma2 = float(np.sum((zo - zo.mean()) ** 2) / (len(zo) - 1))
     else:
-        pct = 100.0 * (a / b - 1.0)
-        worse = f"{pct:.0f}% worse" if pct >= 0.5 else "equal within 1%"
-        text = (
-            f"{chosen} did not beat the last value on MASE {where} ({a:.2f} vs {b:.2f}, {worse})."
-        )
-    mine_skips = [s for s in skipped if s.startswith(chosen + " ")]
-    if mine_skips:
-        text += (
-            f" Its refit failed at {len(mine_skips)} of {n_origins} origins, which were left "
-            "out of this comparison."
-        )
-    return text
+        if m == 1:
+            raise InputError(
+                "the 'same season last year' benchmark needs quarterly or monthly data. "
+                "Got annual data instead."
+            )
+        e = _benchmarks._lag_differences(z, m)
+        need(key, len(e), 1, f"pair of observed values {m} periods apart")
+        seasons_seen = {int(p) % m for p in obs}
+        if len(seasons_seen) < m:
+            raise InputError(
+                f"the 'same season last year' benchmark needs a value in every one of the {m} "
+                f"seasons. Got {len(seasons_seen)} instead."
+            )
+        sigma2 = float(np.sum(e**2) / len(e))
+    return sigma2, drift
+
+
+def _bench_step(
+    model: Benchmark, z_train: np.ndarray, steps: int, method: str, m: int
+) -> tuple[np.ndarray, np.ndarray]:
+    """A benchmark refitted (or kept, ``method="fixed"``) on ``z_train`` and its forecast.
+
+    The numbers of :func:`fit_benchmark` on the data up to the origin followed by
+    :func:`predict_benchmark`, on the transformed values directly (no Series per origin).
+    """
+    if method == "fixed":
+        s2, drift = model.sigma2, model.drift
+    else:
+        s2, drift = _bench_fit(model.key, z_train, m)
+    z = z_train
+    n = len(z)
+    obs = _benchmarks._observed_positions(z)
+    last = obs[-1]
+    target = np.arange(n, n + steps)
+    if model.key == "naive":
+        j = target - last
+        return np.full(steps, z[last]), s2 * j
+    if model.key == "drift":
+        c = float(drift or 0.0)
+        big_t = obs[-1] - obs[0] + 1
+        j = target - last
+        return z[last] + c * j, s2 * j * (1.0 + j / big_t)
+    if model.key == "mean":
+        zo = z[obs]
+        return np.full(steps, zo.mean()), np.full(steps, s2 * (1.0 + 1.0 / len(zo)))
+    mean = np.empty(steps)
+    var = np.empty(steps)
+    for i, t in enumerate(target):
+        same = obs[(obs % m) == (t % m)]
+        src = int(same[-1])
+        mean[i] = z[src]
+        var[i] = s2 * ((t - src) // m)
+    return mean, var
 
 
 def run_hindcast(
@@ -409,7 +344,8 @@ def run_hindcast(
         models.append(fit_benchmark(y, "naive", models[0].transform))
     positions = _origin_positions(y, origins)
     values = np.asarray(y, dtype=float)
-    lag = period_length(y) if period_length(y) > 1 else 1
+    period = period_length(y)
+    lag = period if period > 1 else 1
     n = len(values)
     if engine not in ("auto", "statsmodels"):
         raise InputError(f"engine must be one of auto, statsmodels. Got {engine!r} instead.")
@@ -417,31 +353,42 @@ def run_hindcast(
 
     fast = engine == "auto" and _HAVE_NUMBA
 
-    records: list[dict] = []
+    labels = [time_label(p) for p in y.index]
+    scales = {int(t): naive_scale(values[: t + 1], lag) for t in positions}
+    blocks: dict[str, dict[str, np.ndarray]] = {}
     skipped: list[str] = []
     for model in models:
         label = _label(model)
         z_all = None
         warm: list = [None]
-        if fast and isinstance(model, Candidate):
+        bench = isinstance(model, Benchmark) and model.key in _benchmarks.LABELS
+        if bench:
+            try:  # as fit_benchmark transforms the data up to each origin
+                z_all = _benchmarks._transformed(y, model.transform)
+            except InputError:
+                bench = False  # each origin then says why, as before
+        elif fast and isinstance(model, Candidate):
             from forecasting_core._arima import transformed_values
 
             z_all = transformed_values(y, model.transform)
+        parts: dict[str, list] = {c: [] for c in ("origin", "step", "time", "actual", "scale", *_OUT)}
         for t in positions:
-            train = y.iloc[: t + 1]
-            origin = time_label(y.index[t])
+            origin = labels[t]
             steps = min(horizon, n - 1 - t)
             try:
-                got = (
-                    None
-                    if z_all is None
-                    else _fast_step(model, z_all[: t + 1], steps, method, warm)
-                )
+                if bench:
+                    got = _bench_step(model, z_all[: t + 1], steps, method, period)
+                else:
+                    got = (
+                        None
+                        if z_all is None
+                        else _fast_step(model, z_all[: t + 1], steps, method, warm)
+                    )
                 if isinstance(got, str):
                     skipped.append(f"{label} at origin {origin}: refit rejected ({got}).")
                     continue
                 if got is None:
-                    fitted = _refit(model, train, method)
+                    fitted = _refit(model, y.iloc[: t + 1], method)
                     if isinstance(fitted, Candidate) and not fitted.ok:
                         skipped.append(
                             f"{label} at origin {origin}: refit rejected ({fitted.reason})."
@@ -453,39 +400,40 @@ def run_hindcast(
             except InputError as exc:
                 skipped.append(f"{label} at origin {origin}: {exc}")
                 continue
-            scale = naive_scale(values[: t + 1], lag)
-            for h in range(1, steps + 1):
-                actual = values[t + h]
-                if not np.isfinite(actual):
-                    continue
-                row = {
-                    "model": label,
-                    "origin": origin,
-                    "step": h,
-                    "time": time_label(y.index[t + h]),
-                    "actual": float(actual),
-                }
-                row.update({k: float(v[h - 1]) for k, v in out.items()})
-                row["scale"] = scale
-                records.append(row)
+            # the steps whose actual value is observed
+            keep = np.flatnonzero(np.isfinite(values[t + 1 : t + 1 + steps]))
+            parts["origin"].extend([origin] * keep.size)
+            parts["step"].append(keep + 1)
+            parts["time"].extend(labels[t + 1 + i] for i in keep.tolist())
+            parts["actual"].append(values[t + 1 + keep])
+            parts["scale"].append(np.full(keep.size, scales[int(t)]))
+            for k in _OUT:
+                parts[k].append(np.asarray(out[k], dtype=float)[keep])
+        block = empty_block()
+        if parts["step"]:
+            for k, v in parts.items():
+                if k in ("origin", "time"):
+                    block[k] = np.array(v, dtype=object)
+                else:
+                    block[k] = np.concatenate(v).astype(np.int64 if k == "step" else float)
+        blocks[label] = block
 
-    table = pd.DataFrame(records, columns=[*ERROR_COLUMNS, "scale"])
     scores = []
     for model in models:
-        rows = table[table["model"] == _label(model)]
+        b = blocks[_label(model)]
         kind = "benchmark" if isinstance(model, Benchmark) else "arima"
-        scores.append(_score(_label(model), kind, rows, int(rows["origin"].nunique())))
-    origin_labels = tuple(time_label(y.index[t]) for t in positions)
+        scores.append(score_block(_label(model), kind, b, len(set(b["origin"].tolist()))))
+    origin_labels = tuple(labels[t] for t in positions)
     # every two models on the forecasts both made (their common origins)
-    paired = _paired_scores(table, [(s.model, s.kind) for s in scores])
-    verdict = _verdict(_label(models[0]), "last value", table, len(positions), skipped, paired)
+    paired = paired_blocks(blocks, [(s.model, s.kind) for s in scores])
+    text = verdict(_label(models[0]), "last value", blocks, len(positions), skipped, paired)
     return Hindcast(
         origins=origin_labels,
         horizon=horizon,
         scores=tuple(scores),
-        errors=table[ERROR_COLUMNS].reset_index(drop=True),
+        errors=errors_frame(blocks),
         method=METHODS[method],
-        verdict=verdict,
+        verdict=text,
         skipped=tuple(skipped),
         paired=paired,
     )
