@@ -122,12 +122,24 @@ clientside_callback(
         };
         find(panel);
         var id = shown || ((opened && typeof opened.id === "string") ? opened.id : null);
-        if (id && /^[0-9a-f]{32}$/.test(id) && window.location.pathname === "/board") {
-            var params = new URLSearchParams(window.location.search);
+        var params = new URLSearchParams(window.location.search);
+        var query = null;
+        if (window.location.pathname !== "/board") {
+            query = null;
+        } else if (id && /^[0-9a-f]{32}$/.test(id)) {
             if (params.get("analysis") !== id) {
                 params.set("analysis", id);
-                window.history.replaceState(window.history.state, "", "/board?" + params.toString());
+                query = params.toString();
             }
+        } else if (opened && opened.deleted && params.has("analysis")) {
+            // the draft this link named was just deleted: the link would no longer open
+            params.delete("analysis");
+            query = params.toString();
+        }
+        if (query !== null) {
+            window.history.replaceState(
+                window.history.state, "", "/board" + (query ? "?" + query : "")
+            );
         }
         return window.dash_clientside.no_update;
     }""",
@@ -144,13 +156,15 @@ clientside_callback(
     Output("board-save", "children"),
     Output("board-save-season-hint", "children"),
     Output("board-save-title", "placeholder"),
+    Output("board-delete-box", "style"),
+    Output("board-delete-confirm", "style"),
     Input("board-table", "children"),
     Input(OPEN_ID, "data"),
     State("board-reference", "value"),
     State(SELECTION_ID, "data"),
     prevent_initial_call=True,
 )
-@guarded("showing the saved analysis", outputs=6, alert_at=0)
+@guarded("showing the saved analysis", outputs=8, alert_at=0)
 def show_saved(
     _table: Any, opened: Mapping[str, Any] | None, reference: Any, data: Mapping[str, Any] | None
 ) -> list[Any]:
@@ -176,6 +190,8 @@ def show_saved(
             "Save analysis",
             hint,
             "e.g. Hake 2026 advice",
+            HIDE,
+            HIDE,
         ]
     # exact first; a difference in the last floating-point digits only is said so
     exact = not changed and not saved.forecast_differences(analysis.forecast, fdict, rel=0.0)
@@ -192,7 +208,9 @@ def show_saved(
     publish = SHOW if analysis.status == "draft" and not changed else HIDE
     signoff = SHOW if analysis.status == "published" and not changed else HIDE
     label = f"Save as version {analysis.version + 1}" if changed else "Save analysis"
-    return [panel, publish, signoff, label, hint, analysis.title or "e.g. Hake 2026 advice"]
+    delete = SHOW if analysis.status == "draft" else HIDE
+    placeholder = analysis.title or "e.g. Hake 2026 advice"
+    return [panel, publish, signoff, label, hint, placeholder, delete, HIDE]
 
 
 @callback(

@@ -14,17 +14,28 @@ import io
 import math
 import re
 from collections.abc import Mapping, Sequence
-from dataclasses import replace
 from importlib import metadata
 from typing import Any
 
 import pandas as pd
 import plotly.graph_objects as go
 
+from app.export_settings import settings_rows
 from app.figures import graph_config
-from app.tables import table_decimals
+from app.record_report import record_html
+from app.report_parts import (
+    REPORT_CSS,
+    analysis_html,
+    beside,
+    candidates_frame,
+    forecast_frame,
+    meta_table,
+    skill_frame,
+    table_html,
+    when,
+)
 from app.wording import forecast_summary, hindcast_sentence, residual_report
-from forecasting_core import CAUTIONS, Comparison, Forecast, time_label
+from forecasting_core import CAUTIONS, Comparison, Forecast, ForecastRecord, time_label
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 _PLAIN_NEGATIVE = re.compile(r"^-(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
@@ -86,19 +97,6 @@ def _now() -> str:
     return _dt.datetime.now(_dt.UTC).strftime("%Y-%m-%d %H:%M UTC")
 
 
-def _when(iso: Any) -> str:
-    """An ISO 8601 UTC time as ``2026-12-01 21:04 UTC`` (the text itself when unreadable)."""
-    if not iso:
-        return ""
-    try:
-        moment = _dt.datetime.fromisoformat(str(iso).replace("Z", "+00:00"))
-    except ValueError:
-        return str(iso)
-    if moment.tzinfo is not None:
-        moment = moment.astimezone(_dt.UTC)
-    return moment.strftime("%Y-%m-%d %H:%M UTC")
-
-
 def analysis_lines(analysis: Mapping[str, Any]) -> list[str]:
     """A saved analysis as plain lines for exports: what it is, its status and every sign-off.
 
@@ -116,7 +114,7 @@ def analysis_lines(analysis: Mapping[str, Any]) -> list[str]:
     """
     status = str(analysis.get("status") or "draft")
     if status == "published":
-        state = f"published {_when(analysis.get('published_at'))}".strip()
+        state = f"published {when(analysis.get('published_at'))}".strip()
     else:
         state = "draft, not published"
     lines = [
@@ -125,7 +123,7 @@ def analysis_lines(analysis: Mapping[str, Any]) -> list[str]:
         f"analysis version: {analysis.get('version', '')}",
         f"season: {analysis.get('season') or ''}",
         f"status: {state}",
-        f"saved by: {analysis.get('author') or ''}, {_when(analysis.get('created_at'))}",
+        f"saved by: {analysis.get('author') or ''}, {when(analysis.get('created_at'))}",
     ]
     signoffs = list(analysis.get("signoffs") or ())
     if status == "published" and not signoffs:
@@ -133,7 +131,7 @@ def analysis_lines(analysis: Mapping[str, Any]) -> list[str]:
     for s in signoffs:
         role = f" ({s.get('role')})" if s.get("role") else ""
         note = f": {s.get('note')}" if s.get("note") else ""
-        lines.append(f"sign-off: {_when(s.get('signed_at'))}, {s.get('name', '')}{role}{note}")
+        lines.append(f"sign-off: {when(s.get('signed_at'))}, {s.get('name', '')}{role}{note}")
     return lines
 
 
@@ -232,271 +230,6 @@ def forecast_csv(
 # HTML report
 # ---------------------------------------------------------------------------------------------
 
-_REPORT_CSS = """
-body { font-family: 'Segoe UI', 'Noto Sans', 'DejaVu Sans', 'Helvetica Neue', Arial, sans-serif; color: #24313d;
-       margin: 0; background: #f4f6f8; }
-main { max-width: 1040px; margin: 0 auto; padding: 24px 32px 48px; background: #fff; }
-h1 { font-size: 26px; margin: 8px 0 4px; color: #0a4f5d; }
-h2 { font-size: 18px; margin: 28px 0 8px; border-bottom: 2px solid #e3e8ec; padding-bottom: 4px; }
-.sub { color: #6b7783; margin: 0 0 16px; }
-.summary p { font-size: 17px; line-height: 1.5; margin: 6px 0; }
-.cautions { border-left: 5px solid #d0573f; background: #fbf0ed; padding: 10px 16px;
-            margin: 16px 0; }
-.cautions p { margin: 6px 0; }
-table { border-collapse: collapse; font-size: 13px; margin: 8px 0; }
-th, td { border-bottom: 1px solid #e3e8ec; padding: 4px 10px; text-align: right; }
-th { background: #f4f6f8; }
-td.l, th.l { text-align: left; }
-.meta td { text-align: left; }
-code { font-size: 12px; }
-.analysis { background: #f4f6f8; padding: 8px 16px; margin: 12px 0; }
-.signoffs li { margin: 4px 0; }
-"""
-
-
-def _td(value: Any, left: bool = False) -> str:
-    cls = ' class="l"' if left else ""
-    return f"<td{cls}>{html.escape(str(value))}</td>"
-
-
-def _num(x: Any, digits: int = 4) -> str:
-    try:
-        v = float(x)
-    except (TypeError, ValueError):
-        return str(x)
-    if math.isnan(v):
-        return ""
-    return f"{v:,.{digits}g}" if abs(v) < 1e5 else f"{v:,.0f}"
-
-
-def _table_html(frame: pd.DataFrame, left_cols: Sequence[str] = ()) -> str:
-    head = "".join(
-        f'<th class="l">{html.escape(str(c))}</th>'
-        if c in left_cols
-        else f"<th>{html.escape(str(c))}</th>"
-        for c in frame.columns
-    )
-    rows = []
-    for _, r in frame.iterrows():
-        cells = "".join(
-            _td(r[c], left=True)
-            if c in left_cols
-            else _td(_num(r[c]) if not isinstance(r[c], str) else r[c])
-            for c in frame.columns
-        )
-        rows.append(f"<tr>{cells}</tr>")
-    return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(rows)}</tbody></table>"
-
-
-def _forecast_frame(forecast: Forecast) -> pd.DataFrame:
-    t = forecast.table
-    out = pd.DataFrame(
-        {"period": [str(x) for x in t["time"]], "expected": t["mean"], "median": t["median"]}
-    )
-    for lv in forecast.levels:
-        out[f"{lv}% low"] = t[f"lo{lv}"]
-        out[f"{lv}% high"] = t[f"hi{lv}"]
-    if forecast.reference is not None:
-        out["chance below reference"] = [
-            f"{100 * float(p):.1f}%" for p in t["prob_below_reference"]
-        ]
-    return out
-
-
-def _beside(comparison: Comparison | None, model: str) -> Comparison | None:
-    """``comparison`` with its hindcast scores set beside ``model`` (see ``Hindcast.beside``)."""
-    hc = comparison.hindcast if comparison is not None else None
-    if hc is None or hc.score(model) is None:
-        return comparison
-    return replace(comparison, hindcast=replace(hc, scores=hc.beside(model)))
-
-
-def _column(values: Sequence[Any], decimals: int | None = None) -> list[str]:
-    """One column's numbers with one number of decimals (from :func:`table_decimals`)."""
-    nums = []
-    for v in values:
-        try:
-            nums.append(float(v))
-        except (TypeError, ValueError):
-            nums.append(math.nan)
-    d = table_decimals(nums) if decimals is None else decimals
-    return ["" if not math.isfinite(v) else f"{v:,.{d}f}" for v in nums]
-
-
-def _skill_frame(comparison: Comparison, model: str | None = None) -> pd.DataFrame | None:
-    """The hindcast skill table beside ``model``: the others on the origins it forecast."""
-    hc = comparison.hindcast
-    if hc is None:
-        return None
-    scores = hc.beside(model if model is not None and hc.score(model) else None)
-    out = pd.DataFrame({"model": [s.model for s in scores]})
-    out["origins"] = [str(s.origins) for s in scores]
-    out["MAE"] = _column([s.mae for s in scores])
-    out["RMSE"] = _column([s.rmse for s in scores])
-    out["MASE"] = _column([s.mase for s in scores], 3)
-    out["80% coverage"] = [f"{s.coverage80:.0f}%" for s in scores]
-    out["95% coverage"] = [f"{s.coverage95:.0f}%" for s in scores]
-    out["interval score (95%)"] = _column([s.interval_score95 for s in scores])
-    return out
-
-
-def _candidates_frame(comparison: Comparison, limit: int = 10) -> pd.DataFrame:
-    shown = comparison.accepted[:limit]
-    out = pd.DataFrame({"model": [c.label for c in shown]})
-    out["AICc"] = _column([c.aicc for c in shown], 2)
-    out["delta AICc"] = _column([c.delta_aicc for c in shown], 2)
-    out["weight"] = _column([c.weight for c in shown], 3)
-    out["BIC"] = _column([c.bic for c in shown], 2)
-    return out
-
-
-_SEARCH_WORDS = {"exhaustive": "every order", "stepwise": "stepwise"}
-_PERIOD_WORDS = {"annual": "year", "quarterly": "quarter", "monthly": "month"}
-
-
-def _transform_words(used: Any) -> str:
-    if isinstance(used, Mapping):
-        name, lam = str(used.get("name", "")), used.get("lambda")
-    else:
-        name, lam = str(used or ""), None
-    if name == "boxcox":
-        return "Box-Cox" + (f" (\u03bb={float(lam):.2f})" if lam is not None else "")
-    if name == "log":
-        return "log"
-    return name or ""
-
-
-def settings_rows(
-    settings: Mapping[str, Any], comparison: Comparison | None = None
-) -> dict[str, str]:
-    """The settings that produced a comparison as labelled lines a manager can read.
-
-    Program internals (worker count, engine, screening margins, raw dicts) are left out.
-
-    Parameters
-    ----------
-    settings : Mapping
-        ``Comparison.settings`` (the core's keys) or the Model Bench's settings
-        (``search, max_p, max_q, seasonal, constant, origins, horizon``).
-    comparison : Comparison, optional
-        Gives the frequency (for "5 years ahead") and the hindcast's origin count.
-
-    Returns
-    -------
-    dict
-        Label -> plain text, e.g. ``{"Transform": "log (chosen automatically)", ...}``.
-    """
-    s = dict(settings)
-    out: dict[str, str] = {}
-    chosen = s.get("transform")
-    used = s.get("transform_used")
-    if used is None and comparison is not None:
-        used = comparison.transform.to_dict()
-    if used is not None or chosen:
-        text = _transform_words(used if used is not None else chosen)
-        out["Transform"] = text + (" (chosen automatically)" if chosen == "auto" else "")
-    order = s.get("order")
-    if order:
-        seasonal_order = s.get("seasonal_order")
-        label = f"ARIMA({','.join(str(int(x)) for x in order)})"
-        if seasonal_order:
-            so = [int(x) for x in seasonal_order]
-            label += f"({so[0]},{so[1]},{so[2]})[{so[3]}]"
-        out["Model order"] = f"fixed at {label}"
-    else:
-        search, search_used = s.get("search"), s.get("search_used") or s.get("search")
-        if search_used:
-            out["Order search"] = _SEARCH_WORDS.get(str(search_used), str(search_used)) + (
-                " (chosen automatically)" if search == "auto" and s.get("search_used") else ""
-            )
-        if s.get("max_p") is not None and s.get("max_q") is not None:
-            text = f"p \u2264 {s['max_p']}, q \u2264 {s['max_q']}"
-            if s.get("seasonal") and s.get("max_P") is not None:
-                text += f"; seasonal P \u2264 {s['max_P']}, Q \u2264 {s.get('max_Q')}"
-            out["Orders searched"] = text
-        elif "seasonal" in s:
-            out["Seasonal terms"] = "searched" if s["seasonal"] else "not searched"
-    if s.get("d") is not None:
-        how = " (from the stationarity tests)" if s.get("stationarity") else ""
-        text = f"d = {s['d']}"
-        if s.get("seasonal") or s.get("D"):
-            text += f", seasonal D = {s.get('D') or 0}"
-        out["Differences"] = text + how
-    constant = s.get("constant", "absent")
-    constant_words = {
-        None: "decided by AICc (fitted with and without)",
-        "auto": "decided by AICc (fitted with and without)",
-        True: "always included",
-        "on": "always included",
-        False: "never included",
-        "off": "never included",
-    }
-    if constant != "absent" and constant in constant_words:
-        out["Constant or drift"] = constant_words[constant]
-    frequency = comparison.frequency if comparison is not None else "annual"
-    period = _PERIOD_WORDS.get(frequency, "period")
-    if s.get("horizon") is not None:
-        h = int(s["horizon"])
-        out["Horizon"] = f"{h} {period}{'s' if h != 1 else ''} ahead"
-    hc = comparison.hindcast if comparison is not None else None
-    if s.get("hindcast") is False and hc is None:
-        out["Hindcast"] = "not run"
-    else:
-        origins = s.get("hindcast_origins", s.get("origins"))
-        if hc is not None:
-            n = len(hc.origins)
-            how = "" if origins is not None else f" (default: the last min(10, n/4) {period}s)"
-            out["Hindcast"] = f"{n} origin{'s' if n != 1 else ''}{how}, {hc.method}"
-        elif origins is not None:
-            out["Hindcast"] = f"{origins} origins"
-    if s.get("stationarity"):
-        out["Stationarity check"] = str(s["stationarity"])
-    return out
-
-
-def _meta_table(pairs: Mapping[str, Any]) -> str:
-    rows = "".join(
-        f"<tr><th class='l'>{html.escape(str(k))}</th>{_td(v, left=True)}</tr>"
-        for k, v in pairs.items()
-    )
-    return f'<table class="meta"><tbody>{rows}</tbody></table>'
-
-
-def _analysis_html(analysis: Mapping[str, Any]) -> str:
-    """The saved analysis block of the report: what it is, then the dated sign-offs."""
-    e = html.escape
-    status = str(analysis.get("status") or "draft")
-    state = (
-        f"published {_when(analysis.get('published_at'))}"
-        if status == "published"
-        else "draft, not published"
-    )
-    title = analysis.get("title") or analysis.get("series") or ""
-    parts = [
-        "<section class='analysis'>",
-        f"<p><strong>Saved analysis:</strong> {e(str(title))} &middot; version "
-        f"{e(str(analysis.get('version', '')))} &middot; season {e(str(analysis.get('season') or ''))}"
-        f" &middot; {e(state)} &middot; saved by {e(str(analysis.get('author') or ''))} "
-        f"{e(_when(analysis.get('created_at')))}</p>",
-        f"<p class='sub'>Analysis id <code>{e(str(analysis.get('id', '')))}</code></p>",
-    ]
-    signoffs = list(analysis.get("signoffs") or ())
-    if status == "published":
-        parts.append("<h2>Sign-offs</h2>")
-        if signoffs:
-            items = "".join(
-                f"<li>{e(_when(s.get('signed_at')))} &mdash; <strong>{e(str(s.get('name', '')))}</strong>"
-                + (f" ({e(str(s.get('role')))})" if s.get("role") else "")
-                + (f": {e(str(s.get('note')))}" if s.get("note") else "")
-                + "</li>"
-                for s in signoffs
-            )
-            parts.append(f"<ol class='signoffs'>{items}</ol>")
-        else:
-            parts.append("<p>No sign-offs yet.</p>")
-    parts.append("</section>")
-    return "".join(parts)
-
 
 def report_html(
     forecast: Forecast,
@@ -509,6 +242,8 @@ def report_html(
     settings: Mapping[str, Any] | None = None,
     summary: Sequence[str] | None = None,
     analysis: Mapping[str, Any] | None = None,
+    record: ForecastRecord | None = None,
+    record_analyses: Sequence[Mapping[str, Any]] = (),
 ) -> str:
     """A standalone HTML report that opens offline.
 
@@ -527,6 +262,12 @@ def report_html(
     analysis : Mapping, optional
         The saved analysis this forecast is (``Analysis.to_dict()``): its title, version,
         status and the dated list of sign-offs appear near the top.
+    record : ForecastRecord, optional
+        How earlier published forecasts of this series did (the board's "How past forecasts
+        did"): its headline, caveat, coverage and MASE lines and table, after the forecast
+        table (see :func:`app.record_report.record_html`).
+    record_analyses : sequence of Mapping, optional
+        ``Analysis.to_dict()`` of the analyses behind ``record.forecasts`` (same order).
 
     Returns
     -------
@@ -535,7 +276,7 @@ def report_html(
     """
     e = html.escape
     # the sentences compare the forecast's model with the last value on the origins both forecast
-    paired = _beside(comparison, forecast.model)
+    paired = beside(comparison, forecast.model)
     sentences = (
         list(summary) if summary is not None else forecast_summary(forecast, paired, unit=unit)
     )
@@ -545,10 +286,10 @@ def report_html(
     parts = [
         "<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>",
         f"<title>Haulcast report: {e(forecast.series_name)}</title>",
-        f"<style>{_REPORT_CSS}</style></head><body><main>",
+        f"<style>{REPORT_CSS}</style></head><body><main>",
         f"<h1>Forecast report: {e(forecast.series_name)}</h1>",
         f"<p class='sub'>Haulcast, generated {e(meta['generated'])} &middot; model {e(forecast.model)}</p>",
-        _analysis_html(analysis) if analysis is not None else "",
+        analysis_html(analysis) if analysis is not None else "",
         "<section class='summary'>" + "".join(f"<p>{e(s)}</p>" for s in sentences) + "</section>",
         "<section class='cautions'><strong>Read before use</strong>"
         + "".join(f"<p>{e(c)}</p>" for c in (forecast.cautions or CAUTIONS))
@@ -567,25 +308,27 @@ def report_html(
         )
         first = False
     parts.append("<h2>Forecast table</h2>")
-    parts.append(_table_html(_forecast_frame(forecast), left_cols=("period",)))
+    parts.append(table_html(forecast_frame(forecast), left_cols=("period",)))
+    if record is not None:
+        parts.append(record_html(record, record_analyses))
     if comparison is not None:
-        skill = _skill_frame(comparison, forecast.model)
+        skill = skill_frame(comparison, forecast.model)
         if skill is not None:
             parts.append("<h2>Hindcast skill</h2>")
             if comparison.hindcast is not None:
                 parts.append(
                     f"<p>{e(forecast.model)}: {e(hindcast_sentence(paired, forecast.model))}</p>"
                 )
-            parts.append(_table_html(skill, left_cols=("model",)))
+            parts.append(table_html(skill, left_cols=("model",)))
         parts.append("<h2>Best candidates by AICc</h2>")
-        parts.append(_table_html(_candidates_frame(comparison), left_cols=("model",)))
+        parts.append(table_html(candidates_frame(comparison), left_cols=("model",)))
         diag = residual_report(comparison, forecast.model)
         if diag is not None and diag.verdict:
             parts.append(f"<p>Residual checks ({e(diag.model)}): {e(diag.verdict)}</p>")
     for w in forecast.warnings + (comparison.warnings if comparison is not None else ()):
         parts.append(f"<p><strong>Warning:</strong> {e(w)}</p>")
     parts.append("<h2>What produced this forecast</h2>")
-    parts.append(_meta_table({k: v for k, v in meta.items() if v != ""}))
+    parts.append(meta_table({k: v for k, v in meta.items() if v != ""}))
     chosen = (
         dict(settings)
         if settings is not None
@@ -593,13 +336,13 @@ def report_html(
     )
     if chosen:
         parts.append("<h2>Settings</h2>")
-        parts.append(_meta_table(settings_rows(chosen, comparison)))
+        parts.append(meta_table(settings_rows(chosen, comparison)))
     versions = package_versions()
     if comparison is not None:
         for v in dict(comparison.provenance).values():
             if isinstance(v, Mapping):
                 versions.update({str(kk): str(vv) for kk, vv in v.items()})
     parts.append("<h2>Package versions</h2>")
-    parts.append(_meta_table(versions))
+    parts.append(meta_table(versions))
     parts.append("</main></body></html>")
     return "\n".join(parts)

@@ -22,7 +22,7 @@ from forecasting_core import frequency_of
 
 #: Part of the cache key of memoized figures: change it whenever the figures' look changes,
 #: so a server upgrade never serves figures drawn by older code.
-STYLE = "2"
+STYLE = "3"
 
 #: Colours used by the figures (hex strings; bands use ``rgba`` of ``model``).
 COLORS: dict[str, str] = {

@@ -204,6 +204,10 @@ def fan_chart(
     return fig
 
 
+#: Top margin (px) that keeps a figure's text clear of plotly's modebar.
+MODEBAR_PX = 34
+
+
 def prob_below_figure(forecast: Forecast, *, height: int = 240) -> go.Figure:
     """Chance (percent) that each period ahead falls below the reference level.
 
@@ -245,6 +249,10 @@ def prob_below_figure(forecast: Forecast, *, height: int = 240) -> go.Figure:
     fig.update_xaxes(type="category", title_text=None)
     fig.update_yaxes(range=[0, 105], ticksuffix="%", separatethousands=False)
     fig.update_layout(showlegend=False, hovermode="closest", margin={"t": 16})
+    if forecast.reference is None:
+        # the note sits below the modebar's row (plotly draws it top right on hover, about
+        # 30 px high), which covered it when centred in the whole 90 px
+        fig.update_layout(margin={"t": MODEBAR_PX, "b": 4})
     return fig
 
 

@@ -18,6 +18,7 @@ from __future__ import annotations
 import logging
 import math
 from collections.abc import Iterable, Sequence
+from dataclasses import dataclass
 from typing import Any
 
 import pandas as pd
@@ -25,9 +26,11 @@ from dash import dcc, html
 
 import forecasting_core as fc
 from app.record_figures import record_figure
+from app.record_report import columns, table_rows
 from app.ui import alert, html_table, section, stat_card, stat_row
+from app.wording import RECORD_FOOTNOTE, mase_words
 
-__all__ = ["past_analyses", "record_panel", "record_section"]
+__all__ = ["RecordData", "past_analyses", "record_data", "record_panel", "record_section"]
 
 logger = logging.getLogger("haulcast.app")
 
@@ -161,61 +164,26 @@ def _score(
 # ---------------------------------------------------------------------------------------------
 
 
-def _decimals(values: Iterable[float]) -> int:
-    vals = [abs(float(v)) for v in values if v is not None and math.isfinite(float(v))]
-    typical = sorted(vals)[len(vals) // 2] if vals else 0.0
-    return 0 if typical >= 100 else 1 if typical >= 10 else 2 if typical >= 1 else 3
-
-
 def _mark(value: Any) -> Any:
     """Inside/outside as icon and word (shape and text, not only colour)."""
-    if value is None or pd.isna(value):
+    if value is None:
         return ""
-    if bool(value):
+    if value:
         return html.Span(["\u2714 ", "inside"], className="record-in")
     return html.Span(["\u2716 ", "outside"], className="record-out")
 
 
 def _rows(record: fc.ForecastRecord) -> list[dict[str, Any]]:
-    frame = record.to_frame()
-    if not len(frame):
-        return []
-    decimals = _decimals(frame["median"])
-
-    def num(v: Any) -> str:
-        v = float(v) if v is not None and not pd.isna(v) else math.nan
-        return f"{v:,.{decimals}f}" if math.isfinite(v) else ""
-
-    def signed(v: Any) -> str:
-        v = float(v) if v is not None and not pd.isna(v) else math.nan
-        return f"{v:+,.{decimals}f}".replace("-", "\u2212") if math.isfinite(v) else ""
-
     out = []
-    previous = None
-    for r in frame.to_dict("records"):
-        first_of_forecast = r["forecast"] != previous
-        previous = r["forecast"]
-        row: dict[str, Any] = {
-            # the forecast's name on its first row only (the rows that follow are its periods)
-            "forecast": r["forecast"] if first_of_forecast else "",
-            "_class": "record-first" if first_of_forecast and out else None,
-            "time": r["time"],
-            "median": num(r["median"]),
-        }
+    for r in table_rows(record):
+        row = dict(r)
+        # a line above each past forecast after the first (its periods follow it)
+        row["_class"] = "record-first" if r["first"] and out else None
         if r["status"] == "scored":
-            row["actual"] = num(r["actual"])
             for lv in record.levels:
-                row[f"in{lv}"] = _mark(r.get(f"inside{lv}"))
-            row["error"] = signed(r["error"])
-            pct = r["pct_error"]
-            row["pct"] = (
-                f"{float(pct):+.0f}%".replace("-", "\u2212")
-                if pct is not None and not pd.isna(pct)
-                else ""
-            )
+                row[f"in{lv}"] = _mark(r.get(f"in{lv}"))
         else:
-            note = "not yet realised" if r["status"] == "pending" else "no value in this data"
-            row["actual"] = html.Span(note, className="hc-muted")
+            row["actual"] = html.Span(r["note"], className="hc-muted")
             row["_class"] = " ".join(c for c in (row["_class"], "record-unscored") if c)
         out.append(row)
     return out
@@ -237,7 +205,7 @@ def _cards(record: fc.ForecastRecord) -> html.Div:
             stat_card(
                 "MASE of past forecasts",
                 f"{record.mase:.2f}",
-                "1 = errors as large as the typical change before each forecast",
+                mase_words(record.mase, record.frequency),
             )
         )
     n = record.periods_scored
@@ -311,21 +279,22 @@ def record_panel(
                 className="record-figure",
             )
         )
-    # one past forecast: its name is in the list below the table, not on every row
-    columns = [] if len(record.forecasts) == 1 else [("forecast", "Past forecast")]
-    columns += [("time", "Period"), ("actual", "Realised")]
-    columns += [("median", "Median forecast")]
-    columns += [(f"in{lv}", f"{lv}% band") for lv in record.levels]
-    columns += [("error", "Error"), ("pct", "Error %")]
+    cols = columns(record)
+    headings = [
+        (key, html.Span([h, "\u2009*"], title=tip, className="record-tip") if tip else h)
+        for key, h, tip in cols
+    ]
     children.append(
         html.Div(
-            html_table(
-                _rows(record),
-                columns,
-                id=f"{SECTION_ID}-table",
-                numeric=["actual", "median", "error", "pct"],
-                caption="Error = realised \u2212 median forecast; error % = error / realised.",
-            ),
+            [
+                html_table(
+                    _rows(record),
+                    headings,
+                    id=f"{SECTION_ID}-table",
+                    numeric=["actual", "median", "error", "pct"],
+                ),
+                html.P(f"* {RECORD_FOOTNOTE}", className="hc-small hc-muted record-note"),
+            ],
             className="hc-table-wrap record-table",
         )
     )
@@ -347,8 +316,29 @@ def record_panel(
     )
 
 
-def record_section(store: Any, dataset_id: str, series: str) -> html.Section | None:
-    """The forecast-record panel for the board, or None when there is nothing to show.
+@dataclass(frozen=True)
+class RecordData:
+    """What the record panel and the report's record section are drawn from.
+
+    Parameters
+    ----------
+    record : ForecastRecord
+    history : pandas.Series
+        The newer data the record was scored on.
+    analyses : tuple of Analysis
+        The published analyses behind ``record.forecasts`` (same order).
+    y_title : str
+        Value axis title (series and unit).
+    """
+
+    record: fc.ForecastRecord
+    history: pd.Series
+    analyses: tuple[Any, ...]
+    y_title: str
+
+
+def record_data(store: Any, dataset_id: str, series: str) -> RecordData | None:
+    """The scored record of past published forecasts of ``series``, or None when there is none.
 
     Parameters
     ----------
@@ -361,7 +351,7 @@ def record_section(store: Any, dataset_id: str, series: str) -> html.Section | N
 
     Returns
     -------
-    dash component or None
+    RecordData or None
         None when the dataset or series cannot be read, or no published forecast of this
         series from earlier data exists on other datasets.
     """
@@ -382,4 +372,15 @@ def record_section(store: Any, dataset_id: str, series: str) -> html.Section | N
     info = table.info.get(series)
     unit = getattr(info, "unit", None)
     y_title = f"{series} ({unit})" if unit and not series.endswith(f"({unit})") else series
-    return record_panel(record, y, analyses=used, y_title=y_title)
+    return RecordData(record, y, tuple(used), y_title)
+
+
+def record_section(store: Any, dataset_id: str, series: str) -> html.Section | None:
+    """The forecast-record panel for the board, or None when there is nothing to show.
+
+    The arguments are those of :func:`record_data`.
+    """
+    data = record_data(store, dataset_id, series)
+    if data is None:
+        return None
+    return record_panel(data.record, data.history, analyses=data.analyses, y_title=data.y_title)

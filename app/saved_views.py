@@ -14,7 +14,8 @@ import forecasting_core as fc
 from app import saved
 from app.ui import alert, section
 
-#: ``board-open``: the analysis this visit opened or saved, ``{"id", "selection", "tick"}``.
+#: ``board-open``: the analysis this visit opened or saved, ``{"id", "selection", "tick"}``;
+#: after a draft was deleted, ``{"id": None, "selection", "tick", "deleted": <its id>}``.
 OPEN_ID = "board-open"
 #: ``board-author`` (browser localStorage): ``{"name": str}``, the name last typed here.
 AUTHOR_ID = "board-author"
@@ -205,6 +206,60 @@ def _field(label: str, field_id: str, hint: str | None = None, **kwargs: Any) ->
     return html.Div(children, className="hc-field")
 
 
+def delete_box() -> html.Div:
+    """ "Delete this draft", then a confirm step (shown by :mod:`app.board_delete`)."""
+    return html.Div(
+        [
+            html.Div(
+                [
+                    html.Button(
+                        "Delete this draft",
+                        id="board-delete",
+                        n_clicks=0,
+                        className="hc-button hc-button--quiet",
+                    ),
+                    html.Span(
+                        "Only its author can delete a draft (the name in Your name). "
+                        "Published versions are kept for good.",
+                        className="hc-field__hint",
+                    ),
+                ],
+                className="hc-row",
+            ),
+            html.Div(
+                [
+                    html.P(id="board-delete-question", className="board-delete-question"),
+                    html.Div(
+                        [
+                            html.Button(
+                                "Yes, delete the draft",
+                                id="board-delete-yes",
+                                n_clicks=0,
+                                className="hc-button board-delete-yes",
+                            ),
+                            html.Button(
+                                "No, keep it",
+                                id="board-delete-no",
+                                n_clicks=0,
+                                className="hc-button hc-button--quiet",
+                            ),
+                        ],
+                        className="hc-row",
+                    ),
+                ],
+                id="board-delete-confirm",
+                className="board-delete-confirm",
+                role="group",
+                style=HIDE,
+                **{"aria-label": "Confirm deleting the draft"},
+            ),
+        ],
+        id="board-delete-box",
+        className="board-delete-box",
+        style=HIDE,
+    )
+
+
 def saved_section(opened: Mapping[str, Any] | None, note: Any = None) -> html.Section:
     """The panel: status, the save form, publish and sign-off (shown when they apply)."""
     return section(
@@ -250,6 +305,7 @@ def saved_section(opened: Mapping[str, Any] | None, note: Any = None) -> html.Se
             className="hc-row board-publish-box",
             style=HIDE,
         ),
+        delete_box(),
         html.Div(
             [
                 html.H3("Sign off this version", className="board-saved-sub"),

@@ -171,3 +171,50 @@ def residual_report(comparison: Comparison, model: str):
     except fc.InputError:
         return None
     return fc.check_residuals(candidate) if candidate.ok else None
+
+
+# ---------------------------------------------------------------------------------------------
+# The forecast record (board panel and report)
+# ---------------------------------------------------------------------------------------------
+
+#: The record table's headings for the error columns, and what they mean (tooltip, footnote).
+MISS = "Miss"
+MISS_PCT = "Miss, % of realised"
+MISS_TIP = "Realised value minus the median forecast (+: the outcome came out above the forecast)."
+MISS_PCT_TIP = (
+    "The miss as a percentage of the realised value: \u221225% means the forecast was too high "
+    "by a quarter of what was realised, +25% too low by a quarter."
+)
+RECORD_FOOTNOTE = (
+    "Miss = realised \u2212 median forecast. Miss, % of realised = the miss divided by the "
+    "realised value (\u221225%: the forecast was too high by a quarter of what was realised)."
+)
+_CHANGE = {
+    "annual": "year-to-year change",
+    "quarterly": "change from the same quarter a year earlier",
+    "monthly": "change from the same month a year earlier",
+}
+
+
+def mase_words(mase: float, frequency: str) -> str:
+    """MASE in plain words, e.g. ``errors 9.9 times the typical year-to-year change``.
+
+    MASE divides each absolute error by the mean absolute naive change of the data before the
+    forecast (one period back for annual data, one year back for quarterly and monthly data;
+    Hyndman and Koehler 2006, "Another look at measures of forecast accuracy"), so 1 means
+    errors as large as that typical change.
+
+    Parameters
+    ----------
+    mase : float
+        The MASE (NaN gives ``""``).
+    frequency : {"annual", "quarterly", "monthly"}
+    """
+    if mase is None or not math.isfinite(float(mase)):
+        return ""
+    change = _CHANGE.get(frequency, "one-period change")
+    m = float(mase)
+    if 0.95 <= m < 1.05:
+        return f"errors about as large as the typical {change}"
+    times = f"{m:.2f}" if m < 1 else f"{m:.1f}" if m < 10 else f"{m:.0f}"
+    return f"errors {times} times the typical {change}"

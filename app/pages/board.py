@@ -10,13 +10,10 @@ whether the numbers match the saved ones).
 
 from __future__ import annotations
 
-import functools
-import re
 from collections.abc import Mapping
 from typing import Any
 
 import dash
-import plotly.graph_objects as go
 from dash import (
     Input,
     Output,
@@ -30,162 +27,24 @@ from dash import (
 from dash.exceptions import PreventUpdate
 
 import forecasting_core as fc
-from app import board_saved, export, figures, saved, saved_views, tables, wording
-from app.analysis import LEVELS, board_state, changed_selection, comparison_key, parse_reference
-from app.cache import cache, get_comparison
+
+# board_delete and board_exports register the panel's and the downloads' callbacks
+from app import board_delete, board_exports, board_saved, saved, saved_views, tables, wording
+from app.analysis import board_state, changed_selection, parse_reference
+from app.board_views import board_figures, details, graph, progress, reference_notes
 from app.record_views import record_section
 from app.state import SELECTION_ID
-from app.ui import alert, caution_box, fmt_number, guarded, html_table, page_header, section
+from app.ui import alert, caution_box, guarded, page_header, section
+
+__all__ = ["board_delete", "board_exports", "layout"]
 
 dash.register_page(
     __name__, path="/board", name="Forecast Board", order=3, title="Forecast Board \u00b7 Haulcast"
 )
 
-#: Years of history drawn before the forecast, by frequency.
-HISTORY_YEARS = {"annual": 40, "quarterly": 15, "monthly": 10}
-
-
-# ---------------------------------------------------------------------------------------------
-# Pieces
-# ---------------------------------------------------------------------------------------------
-
-
-def _fan(state: Mapping[str, Any], present: bool) -> go.Figure:
-    forecast = state["forecast"]
-    fig = figures.fan_chart(
-        forecast,
-        state["candidate"].series,
-        unit=state["unit"],
-        history_years=HISTORY_YEARS.get(forecast.frequency, 40),
-        height=560 if present else 440,
-    )
-    if present:
-        fig.update_layout(font={"size": 19})
-    return fig
-
-
-def _prob(state: Mapping[str, Any], present: bool) -> go.Figure:
-    forecast = state["forecast"]
-    fig = figures.prob_below_figure(forecast, height=300 if present else 240)
-    if forecast.reference is not None:
-        # the bars' labels follow the forecast table's rule ("less than 1%", never "0%")
-        labels = [wording.fmt_chance(float(p)) for p in forecast.table["prob_below_reference"]]
-        fig.update_traces(text=labels, selector={"type": "bar"})
-    if present:
-        fig.update_layout(font={"size": 18})
-    return fig
-
-
-def _figures(state: Mapping[str, Any], present: bool) -> list[dict[str, Any]]:
-    """Fan chart and chance-below chart as JSON, memoized on what they show."""
-    forecast = state["forecast"]
-    return _figures_memo(
-        *comparison_key(state["selection"]),
-        state["candidate"].label,
-        forecast.horizon,
-        forecast.reference,
-        present,
-        f"{fc.__version__}+{figures.STYLE}",
-    )
-
-
-@cache.memoize()
-def _figures_memo(
-    dataset_id: str,
-    series: str,
-    settings: str,
-    label: str,
-    horizon: int,
-    reference: float | None,
-    present: bool,
-    core_version: str,
-) -> list[dict[str, Any]]:
-    from app.store import get_store
-
-    candidate = get_comparison(dataset_id, series, settings).candidate(label)
-    forecast = fc.make_forecast(candidate, horizon=horizon, levels=LEVELS, reference=reference)
-    info = get_store().load_table(dataset_id).info.get(series)
-    state = {"forecast": forecast, "candidate": candidate, "unit": info.unit if info else None}
-    return [_fan(state, present).to_plotly_json(), _prob(state, present).to_plotly_json()]
-
-
-def _details(state: Mapping[str, Any]) -> list[Any]:
-    c: fc.Candidate = state["candidate"]
-    comparison: fc.Comparison = state["comparison"]
-    forecast: fc.Forecast = state["forecast"]
-    spec = c.transform
-    rows = [
-        {"k": "Model", "v": c.label},
-        {
-            "k": "Transform",
-            "v": spec.name + (f" (lambda {spec.lam:.3f})" if spec.lam is not None else ""),
-        },
-        {"k": "AICc", "v": fmt_number(c.aicc, 6)},
-        {"k": "Innovation variance (transformed scale)", "v": fmt_number(c.sigma2, 4)},
-        {
-            "k": "Coefficients",
-            "v": ", ".join(f"{k} {v:.4g}" for k, v in c.params.items() if k != "sigma2") or "none",
-        },
-        {"k": "Bands from", "v": forecast.band_source},
-        {"k": "Observations", "v": str(comparison.observations)},
-    ]
-    parts: list[Any] = [html_table(rows, [("k", "Item"), ("v", "Value")])]
-    if comparison.hindcast is not None:
-        parts.append(
-            html.P(
-                [
-                    html.Strong("Hindcast: "),
-                    f"{c.label}. ",
-                    wording.hindcast_sentence(comparison, c.label),
-                ]
-            )
-        )
-    diag = wording.residual_report(comparison, c.label)
-    if diag is not None:
-        parts.append(html.P([html.Strong("Residuals: "), diag.verdict]))
-    for w in (*forecast.warnings, *comparison.warnings):
-        parts.append(html.Div(w, className="hc-alert hc-alert--warning", role="note"))
-    return parts
-
-
-def _safe_name(text: str) -> str:
-    return re.sub(r"[^A-Za-z0-9_.-]+", "_", text).strip("_") or "forecast"
-
-
 # ---------------------------------------------------------------------------------------------
 # Layout
 # ---------------------------------------------------------------------------------------------
-
-
-@functools.cache
-def _blank(height: int) -> dict[str, Any]:
-    """A placeholder figure as plain JSON (built once: layouts are built on every visit)."""
-    return figures.blank_figure(height).to_plotly_json()
-
-
-def _progress() -> html.Div:
-    return html.Div(
-        [
-            html.Div(html.Div(className="bench-progress__bar"), className="bench-progress__track"),
-            html.P(
-                "Preparing the forecast. The first time for a series or a setting this runs the "
-                "model comparison (search and hindcast), which takes a moment\u2026",
-                className="bench-progress__text",
-            ),
-        ],
-        className="bench-progress",
-        role="progressbar",
-        **{"aria-label": "Forecast being prepared"},
-    )
-
-
-def _graph(graph_id: str, name: str, height: int) -> dcc.Graph:
-    return dcc.Graph(
-        id=graph_id,
-        config=figures.graph_config(name),
-        className="hc-graph",
-        figure=_blank(height),
-    )
 
 
 def _opened(analysis: str | None) -> tuple[dict[str, Any] | None, Any]:
@@ -255,7 +114,7 @@ def layout(present: str | None = None, analysis: str | None = None, **_query: An
                         [
                             section(
                                 "Forecast",
-                                _graph("board-fan", "fan_chart", 440),
+                                graph("board-fan", "fan_chart", 440),
                                 caution_box(compact=True),
                                 html.P(
                                     "Shaded bands: 50%, 80% and 95% of outcomes expected inside. "
@@ -286,7 +145,7 @@ def layout(present: str | None = None, analysis: str | None = None, **_query: An
                                     ],
                                     className="hc-field",
                                 ),
-                                _graph("board-prob", "chance_below_reference", 240),
+                                graph("board-prob", "chance_below_reference", 240),
                             ),
                         ],
                         className="hc-grid board-grid",
@@ -301,7 +160,7 @@ def layout(present: str | None = None, analysis: str | None = None, **_query: An
                         lead="What produced these bands.",
                     ),
                 ],
-                custom_spinner=_progress(),
+                custom_spinner=progress(),
                 delay_show=150,
                 overlay_style={"visibility": "visible", "opacity": 0.35},
             ),
@@ -412,17 +271,11 @@ def render(
     return [
         [html.P(s) for s in sentences],
         model,
-        *_figures(state, bool(present)),
+        *board_figures(state, bool(present)),
         tables.forecast_table(forecast, state["unit"]),
-        _details(state),
-        _reference_notes(forecast),
+        details(state),
+        reference_notes(forecast),
     ]
-
-
-def _reference_notes(forecast: fc.Forecast) -> Any:
-    """The core's notes on an implausible reference level, shown beside the forecast."""
-    notes = [w for w in forecast.warnings if "reference level" in w]
-    return alert(" ".join(notes), "warning", title="Reference level") if notes else None
 
 
 @callback(
@@ -447,90 +300,6 @@ def save_reference(
     ):
         raise PreventUpdate
     return changed_selection(base, reference=ref)
-
-
-@callback(
-    Output("board-csv", "data"),
-    Output("board-alert", "children", allow_duplicate=True),
-    Input("board-download-csv", "n_clicks"),
-    State("board-reference", "value"),
-    State(SELECTION_ID, "data"),
-    State(saved_views.OPEN_ID, "data"),
-    prevent_initial_call=True,
-)
-@guarded("writing the forecast CSV", outputs=2, alert_at=1)
-def download_csv(
-    n: int, reference: Any, data: Mapping[str, Any] | None, opened: Mapping[str, Any] | None
-) -> list[Any]:
-    if not n:
-        raise PreventUpdate
-    state = board_state(saved.overlay(data, opened), reference)
-    text = export.forecast_csv(
-        state["forecast"],
-        state["comparison"],
-        unit=state["unit"],
-        dataset_hash=state["selection"]["dataset_id"],
-        dataset_name=state["dataset_name"],
-        analysis=_export_analysis(state),
-    )
-    name = f"{_safe_name(state['forecast'].series_name)}_forecast.csv"
-    return [dcc.send_string(text, name, type="text/csv"), None]
-
-
-@callback(
-    Output("board-html", "data"),
-    Output("board-alert", "children", allow_duplicate=True),
-    Input("board-download-html", "n_clicks"),
-    State("board-reference", "value"),
-    State(SELECTION_ID, "data"),
-    State(saved_views.OPEN_ID, "data"),
-    prevent_initial_call=True,
-)
-@guarded("writing the HTML report", outputs=2, alert_at=1)
-def download_html(
-    n: int, reference: Any, data: Mapping[str, Any] | None, opened: Mapping[str, Any] | None
-) -> list[Any]:
-    if not n:
-        raise PreventUpdate
-    state = board_state(saved.overlay(data, opened), reference)
-    forecast, comparison = state["forecast"], state["comparison"]
-    figs: list[tuple[str, go.Figure]] = [("Forecast", _fan(state, False))]
-    if forecast.reference is not None:
-        figs.append(("Chance of falling below the reference level", _prob(state, False)))
-    if comparison.hindcast is not None:
-        label = state["candidate"].label
-        shown = label if comparison.hindcast.score(label) else comparison.best.label
-        figs.append(
-            (
-                f"Hindcast: {shown} on past years",
-                figures.hindcast_figure(
-                    comparison.hindcast,
-                    state["candidate"].series,
-                    model=shown,
-                    unit=state["unit"],
-                    series_name=comparison.series_name,
-                ),
-            )
-        )
-    page = export.report_html(
-        forecast,
-        comparison,
-        figures=figs,
-        unit=state["unit"],
-        dataset_hash=state["selection"]["dataset_id"],
-        dataset_name=state["dataset_name"],
-        analysis=_export_analysis(state),
-    )
-    name = f"{_safe_name(forecast.series_name)}_report.html"
-    return [dcc.send_string(page, name, type="text/html"), None]
-
-
-def _export_analysis(state: Mapping[str, Any]) -> dict[str, Any] | None:
-    """The saved analysis the exports describe: the one being looked at, unless changed since."""
-    from app.store import get_store
-
-    analysis, changed, _settings = board_saved.looking_at(state, get_store())
-    return None if analysis is None or changed else analysis.to_dict()
 
 
 # The record depends on the dataset and the series only (not on the model or the reference level).

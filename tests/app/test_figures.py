@@ -66,6 +66,10 @@ def test_prob_below_without_reference_explains_what_to_do(comparison):
     fig = figures.prob_below_figure(fcst)
     assert len(fig.data) == 0
     assert "No reference level" in fig.layout.annotations[0].text
+    # the note is drawn below the row plotly's modebar takes on hover (about 30 px; it covered
+    # the centred note of a 90 px figure)
+    assert fig.layout.margin.t >= figures.MODEBAR_PX >= 30
+    assert fig.layout.height - fig.layout.margin.t - fig.layout.margin.b >= 40
 
 
 def test_hindcast_figure_has_one_path_per_origin(comparison, nile):

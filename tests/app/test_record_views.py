@@ -253,3 +253,19 @@ def test_figure_draws_only_80_bands_for_many_forecasts():
     record = fc.score_forecast_record([_forecast()] * 4, y, labels=list("ABCD"))
     names = [t.name for t in record_figure(record, y).data]
     assert "A: 80% band" in names and not any("95%" in n for n in names)
+
+
+def test_panel_names_the_miss_columns_plainly_and_glosses_the_mase(store, vintages):
+    old, new = vintages
+    _publish(store, old)
+    section = record_section(store, new, "cod_t")
+    table = _find(section, "record-panel-table")
+    heads = table.children[0].children.children  # Thead > Tr > [Th]
+    by_text = {_text(th).replace("\u2009*", "").strip(): th for th in heads}
+    assert "Error %" not in by_text and "Miss, % of realised" in by_text
+    tip = by_text["Miss, % of realised"].children.title
+    assert tip.startswith("The miss as a percentage of the realised value")
+    text = _text(section)
+    assert "* Miss = realised \u2212 median forecast." in text
+    # MASE (2 + 1.5 + 6) / 3 / (27 / 14) = 1.64: the card says it in words
+    assert "errors 1.6 times the typical year-to-year change" in text
