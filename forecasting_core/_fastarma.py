@@ -27,12 +27,14 @@ import numpy as np
 
 from forecasting_core._fastkernels import (
     HAVE_NUMBA,
+    _admissible,
     _bfgs,
     _constrain,
-    _expand,
     _harvey_loglik,
     _harvey_loglik_py,
+    _roots_ok,
 )
+from forecasting_core._fastkernels import _finish as _finish_kernel
 
 __all__ = ["FastFit", "constrain", "difference", "fit_arma", "screen_specs", "unconstrain", "warm_up"]
 
@@ -50,7 +52,7 @@ SCREEN_GTOL = 1e-2
 CSS_GTOL = 1e-2
 CSS_MAXITER = 50
 _KINDS = {"exact": 0, "css": 1}
-_ = _harvey_loglik_py  # re-exported for the test of the plain filter
+_ = _harvey_loglik_py, _harvey_loglik  # re-exported for the tests of the filter
 
 
 def constrain(x: np.ndarray) -> np.ndarray:
@@ -76,6 +78,22 @@ def unconstrain(phi: np.ndarray) -> np.ndarray:
     return r / np.sqrt(1.0 - r * r)
 
 
+_POWERS: dict[tuple[float, int], np.ndarray] = {}
+
+
+def _powers(limit: float, n: int) -> np.ndarray:
+    """``limit ** [1, ..., n]`` (numpy's power, computed once per limit and length)."""
+    key = (limit, n)
+    got = _POWERS.get(key)
+    if got is None:
+        got = _POWERS[key] = float(limit) ** np.arange(1, n + 1)
+    return got
+
+
+def _floats(coefs) -> np.ndarray:
+    return np.ascontiguousarray(coefs, dtype=float)
+
+
 def roots_outside(coefs, limit: float = 1.0) -> bool:
     """Every root of 1 - sum c_i z^i has modulus above ``limit`` (Levinson step-down, no roots).
 
@@ -83,24 +101,21 @@ def roots_outside(coefs, limit: float = 1.0) -> bool:
     stationarity of the coefficients c_i limit^i: every step-down partial autocorrelation
     strictly inside (-1, 1).
     """
-    cur = np.asarray(coefs, dtype=float) * float(limit) ** np.arange(1, len(coefs) + 1)
-    for k in range(cur.size - 1, -1, -1):
-        rk = float(cur[k])
-        if not abs(rk) < 1.0:
-            return False
-        if k:
-            cur = (cur[:k] + rk * cur[:k][::-1]) / (1.0 - rk * rk)
-    return True
+    c = _floats(coefs)
+    return bool(_roots_ok(c, _powers(limit, c.size), 1.0))
 
 
 def admissible(ar, ma, sar, sma, m: int, limit: float) -> bool:
     """No AR or MA root (seasonal factors included) within ``limit`` of the unit circle."""
-    return (
-        roots_outside(ar, limit)
-        and roots_outside(-np.asarray(ma, dtype=float), limit)
-        and roots_outside(sar, limit**m)
-        and roots_outside(-np.asarray(sma, dtype=float), limit**m)
-    )
+    ar, ma, sar, sma = _floats(ar), _floats(ma), _floats(sar), _floats(sma)
+    season = limit**m
+    return bool(
+        _admissible(
+            ar, ma, sar, sma,
+            _powers(limit, ar.size), _powers(limit, ma.size),
+            _powers(season, sar.size), _powers(season, sma.size),
+        )
+    )  # fmt: skip
 
 
 @dataclass(frozen=True)
@@ -166,14 +181,6 @@ class FastFit:
         return aic + 2.0 * k * (k + 1) / (n - k - 1)
 
 
-def _profile_loglik(w: np.ndarray, phi: np.ndarray, theta: np.ndarray) -> tuple[float, float, int]:
-    ssq, sumlog, n = _harvey_loglik(w, phi, theta)
-    if n == 0 or not math.isfinite(ssq) or ssq <= 0.0:
-        return -math.inf, math.nan, n
-    sigma2 = ssq / n
-    return -0.5 * (n * (_LOG_2PI + math.log(sigma2) + 1.0) + sumlog), sigma2, n
-
-
 def fit_arma(
     w: np.ndarray,
     p: int,
@@ -188,6 +195,7 @@ def fit_arma(
     gtol: float = GTOL,
     kind: str = "exact",
     hess_inv: np.ndarray | None = None,
+    prepared: tuple[np.ndarray, float, float] | None = None,
 ) -> FastFit:
     """Maximum-likelihood (seasonal) ARMA with an optional mean on a stationary series.
 
@@ -217,13 +225,10 @@ def fit_arma(
         screen). Either way ``loglik`` is the exact likelihood at the estimate.
     hess_inv : numpy.ndarray, optional
         Starting inverse Hessian (a neighbouring fit's ``hess_inv``); identity otherwise.
+    prepared : tuple, optional
+        ``standardise(w, mean)``, when the caller has it already (same numbers).
     """
-    w = np.ascontiguousarray(w, dtype=float)
-    finite = w[np.isfinite(w)]
-    scale = float(np.std(finite)) or 1.0
-    centre = float(np.mean(finite)) if mean else 0.0
-    # Work on a standardised series so one set of tolerances fits every unit (t, kg per tow, deg C).
-    ws = (w - centre) / scale
+    ws, centre, scale = standardise(w, mean) if prepared is None else prepared
     k = p + q + P + Q + int(mean)
     x0 = np.zeros(k) if start is None else np.asarray(start, dtype=float).copy()
     if mean and start is not None:
@@ -242,18 +247,30 @@ def fit_arma(
     return _finish(x, ws, centre, scale, p, q, P, Q, m, mean, converged, H)
 
 
+def standardise(w: np.ndarray, mean: bool) -> tuple[np.ndarray, float, float]:
+    """``(ws, centre, scale)``: the series :func:`fit_arma` works on, its centre and scale.
+
+    Work on a standardised series so one set of tolerances fits every unit (t, kg per tow,
+    deg C): ``ws = (w - centre) / scale`` with the standard deviation of the observed values
+    as scale and their mean as centre (0 without a mean). A caller fitting many orders to one
+    series computes this once and passes it as ``prepared``.
+    """
+    w = np.ascontiguousarray(w, dtype=float)
+    finite = w[np.isfinite(w)]
+    scale = float(np.std(finite)) or 1.0
+    centre = float(np.mean(finite)) if mean else 0.0
+    return (w - centre) / scale, centre, scale
+
+
 def _finish(x, ws, centre, scale, p, q, P, Q, m, mean, converged, H=None) -> FastFit:
-    cuts = np.cumsum([p, q, P, Q])
-    ar = constrain(x[: cuts[0]])
-    ma = -constrain(x[cuts[0] : cuts[1]])
-    sar = constrain(x[cuts[1] : cuts[2]])
-    sma = -constrain(x[cuts[2] : cuts[3]])
-    mu = float(x[cuts[3]]) if mean else 0.0
-    if P or Q:
-        phi, theta = _expand(ar, sar, m, -1.0), _expand(ma, sma, m, 1.0)
+    ar, ma, sar, sma, mu, ssq, sumlog, n = _finish_kernel(x, ws, p, q, P, Q, m, bool(mean))
+    # sigma2 concentrated out
+    if n == 0 or not math.isfinite(ssq) or ssq <= 0.0:
+        ll, sigma2s = -math.inf, math.nan
     else:
-        phi, theta = ar, ma
-    ll, sigma2s, n = _profile_loglik(ws - mu, phi, theta)
+        sigma2s = ssq / n
+        ll = -0.5 * (n * (_LOG_2PI + math.log(sigma2s) + 1.0) + sumlog)
+    mu = float(mu) if mean else 0.0
     # Back to the data's own scale: the likelihood shifts by -n log(scale).
     loglik = ll - n * math.log(scale)
     x_out = np.array(x, dtype=float)
@@ -414,20 +431,34 @@ def _screen_specs(z, specs, margin, cold_check, root_limit):
         p, d, q, P, D, Q, m, const = parts(spec)
         return seen - d - D * m
 
+    prepared: dict[tuple, tuple[np.ndarray, float, float]] = {}
+
+    def prep(d, D, m, const):
+        """The standardised differenced series (once per difference and mean choice)."""
+        key = (d, D, m, const)
+        if key not in prepared:
+            prepared[key] = standardise(series[(d, D, m)], const)
+        return prepared[key]
+
+    gaps: dict[tuple, bool] = {}
     for spec in sorted(specs, key=_complexity):
         p, d, q, P, D, Q, m, const = parts(spec)
-        w = series.setdefault((d, D, m), difference(z, d, D, m))
-        gappy = not bool(np.isfinite(w).all())
+        if (d, D, m) not in series:
+            series[(d, D, m)] = difference(z, d, D, m)
+            gaps[(d, D, m)] = not bool(np.isfinite(series[(d, D, m)]).all())
+        w = series[(d, D, m)]
+        gappy = gaps[(d, D, m)]
         start = None
         for dp, dq, dP, dQ in ((1, 0, 0, 0), (0, 1, 0, 0), (0, 0, 1, 0), (0, 0, 0, 1)):
             prev = by_key.get((d, D, m, const, p - dp, q - dq, P - dP, Q - dQ))
             if prev is not None and prev.converged:
                 start = _pad(prev, p, q, P, Q)
                 break
+        ready = prep(d, D, m, const)
         if gappy:
-            fit = fit_arma(w, p, q, const, P=P, Q=Q, m=m, start=start, gtol=SCREEN_GTOL, maxiter=60)
+            fit = fit_arma(w, p, q, const, P=P, Q=Q, m=m, start=start, gtol=SCREEN_GTOL, maxiter=60, prepared=ready)
         else:
-            fit = fit_arma(w, p, q, const, P=P, Q=Q, m=m, start=start, gtol=CSS_GTOL, maxiter=CSS_MAXITER, kind="css")
+            fit = fit_arma(w, p, q, const, P=P, Q=Q, m=m, start=start, gtol=CSS_GTOL, maxiter=CSS_MAXITER, kind="css", prepared=ready)
         by_key[(d, D, m, const, p, q, P, Q)] = fit
         fits[spec] = fit
         exact[spec] = False
@@ -437,7 +468,7 @@ def _screen_specs(z, specs, margin, cold_check, root_limit):
 
     def refine(spec, start, hess_inv=None):
         p, d, q, P, D, Q, m, const = parts(spec)
-        return fit_arma(series[(d, D, m)], p, q, const, P=P, Q=Q, m=m, start=start, hess_inv=hess_inv)
+        return fit_arma(series[(d, D, m)], p, q, const, P=P, Q=Q, m=m, start=start, hess_inv=hess_inv, prepared=prep(d, D, m, const))
 
     def usable(spec):
         """Finite and admissible (no root within ``root_limit``): could be reported as chosen."""
@@ -467,7 +498,12 @@ def _screen_specs(z, specs, margin, cold_check, root_limit):
     # (e.g. one whose screen was far off), until the top is settled.
     failed: set = set()
     while True:
-        top = [s for s in sorted(specs, key=aicc) if s not in failed and usable(s)][: max(cold_check, 3)]
+        top = []
+        for s in sorted(specs, key=aicc):
+            if len(top) == max(cold_check, 3):
+                break
+            if s not in failed and usable(s):
+                top.append(s)
         todo = [s for s in top if not exact[s]]
         if not todo:
             break
@@ -494,4 +530,6 @@ def warm_up() -> None:
     fit_arma(w, 1, 1, True)
     fit_arma(np.nan_to_num(w), 1, 1, True, kind="css")
     fit_arma(w, 1, 0, False, P=1, Q=1, m=2)
+    admissible((0.5,), (0.2,), (), (), 2, 1.001)
+    roots_outside(np.array([0.5]), 1.0)
     arima_forecast(np.cumsum(np.nan_to_num(w)), (1, 1, 1), None, True, {"drift": 0.0, "ar.L1": 0.2, "ma.L1": 0.1, "sigma2": 1.0}, 3)

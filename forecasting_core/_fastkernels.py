@@ -384,6 +384,66 @@ def _bfgs_py(
     return x, f, status, it, H
 
 
+def _finish_py(
+    x: np.ndarray, ws: np.ndarray, p: int, q: int, P: int, Q: int, m: int, mean: bool
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, float, float, float, int]:
+    """Coefficients and exact-likelihood terms at unconstrained ``x`` (standardised scale).
+
+    Returns (ar, ma, seasonal ar, seasonal ma, mean, sum v^2 / F, sum log F, observations):
+    what ``_fastarma`` reports for a fit, in one call instead of one per polynomial.
+    """
+    ar = _constrain(x[:p])
+    ma = -_constrain(x[p : p + q])
+    sar = _constrain(x[p + q : p + q + P])
+    sma = -_constrain(x[p + q + P : p + q + P + Q])
+    mu = x[p + q + P + Q] if mean else 0.0
+    if P > 0 or Q > 0:
+        phi = _expand(ar, sar, m, -1.0)
+        theta = _expand(ma, sma, m, 1.0)
+    else:
+        phi = ar
+        theta = ma
+    ssq, sumlog, n = _harvey_loglik(ws - mu, phi, theta)
+    return ar, ma, sar, sma, mu, ssq, sumlog, n
+
+
+def _roots_ok_py(c: np.ndarray, powers: np.ndarray, sign: float) -> bool:
+    """Every root of 1 - sum (sign c_i) z^i lies outside the circle the ``powers`` scale to.
+
+    ``powers`` holds limit^1 .. limit^k: the roots of c(limit z) are those of c(z) divided
+    by ``limit``, so the test is the stationarity of ``sign c_i limit^i`` (every Levinson
+    step-down partial autocorrelation strictly inside (-1, 1)).
+    """
+    n = c.shape[0]
+    cur = np.empty(n)
+    for i in range(n):
+        cur[i] = (sign * c[i]) * powers[i]
+    for k in range(n - 1, -1, -1):
+        rk = cur[k]
+        if not abs(rk) < 1.0:
+            return False
+        if k:
+            denom = 1.0 - rk * rk
+            new = np.empty(k)
+            for i in range(k):
+                new[i] = (cur[i] + rk * cur[k - 1 - i]) / denom
+            cur = new
+    return True
+
+
+def _admissible_py(
+    ar: np.ndarray, ma: np.ndarray, sar: np.ndarray, sma: np.ndarray,
+    p_ar: np.ndarray, p_ma: np.ndarray, p_sar: np.ndarray, p_sma: np.ndarray,
+) -> bool:
+    """:func:`_roots_ok` of the four polynomials (MA ones with the sign turned), in order."""
+    return (
+        _roots_ok(ar, p_ar, 1.0)
+        and _roots_ok(ma, p_ma, -1.0)
+        and _roots_ok(sar, p_sar, 1.0)
+        and _roots_ok(sma, p_sma, -1.0)
+    )
+
+
 def _compile(f):
     return numba.njit(cache=True)(f) if HAVE_NUMBA else f
 
@@ -396,3 +456,6 @@ _css = _compile(_css_py)
 _objective = _compile(_objective_py)
 _gradient = _compile(_gradient_py)
 _bfgs = _compile(_bfgs_py)
+_finish = _compile(_finish_py)
+_roots_ok = _compile(_roots_ok_py)
+_admissible = _compile(_admissible_py)

@@ -180,13 +180,21 @@ def _fast_candidate(
     sar = tuple(params[f"ar.S.L{m * i}"] for i in range(1, (seasonal[0] if seasonal else 0) + 1))
     sma = tuple(params[f"ma.S.L{m * j}"] for j in range(1, (seasonal[2] if seasonal else 0) + 1))
     loglik = -0.5 * (aicc - 2.0 * k * (k + 1) / (nobs - k - 1) - 2.0 * k)
-    cand = Candidate(
+    reason = None
+    worst = None if _fastarma.admissible(ar, ma, sar, sma, m, ROOT_LIMIT) else _nearest_root(ar, ma, sar, sma, m)
+    if worst is not None and worst[1] < ROOT_LIMIT:
+        kind, modulus = worst
+        word = "non-stationary" if kind == "AR" else "non-invertible"
+        reason = f"{word}: an {kind} root has modulus {modulus:.4f}, within {ROOT_LIMIT} of the unit circle"
+    elif not converged:
+        reason = f"no convergence in {what}"
+    return Candidate(
         order=order,
         seasonal_order=seasonal,
         constant=constant,
         label=model_label(order, seasonal, constant),
-        status="ok",
-        reason=None,
+        status="ok" if reason is None else "rejected",
+        reason=reason,
         aicc=aicc,
         aic=-2.0 * loglik + 2.0 * k,
         bic=-2.0 * loglik + k * math.log(nobs),
@@ -202,18 +210,6 @@ def _fast_candidate(
         transform=spec,
         series=y,
     )
-    worst = None if _fastarma.admissible(ar, ma, sar, sma, m, ROOT_LIMIT) else _nearest_root(ar, ma, sar, sma, m)
-    if worst is not None and worst[1] < ROOT_LIMIT:
-        kind, modulus = worst
-        word = "non-stationary" if kind == "AR" else "non-invertible"
-        return replace(
-            cand,
-            status="rejected",
-            reason=f"{word}: an {kind} root has modulus {modulus:.4f}, within {ROOT_LIMIT} of the unit circle",
-        )
-    if not converged:
-        return replace(cand, status="rejected", reason=f"no convergence in {what}")
-    return cand
 
 
 def _fast_fit(y: pd.Series, spec: TransformSpec, s: Spec, start: Mapping[str, float] | None) -> Candidate:
@@ -247,13 +243,15 @@ def stepwise_fast_usable(y: pd.Series, d: int, big_d: int) -> bool:
 
 def _min_modulus(coefs: np.ndarray) -> float:
     """Smallest root modulus of 1 + c_1 z + ... + c_k z^k (companion eigenvalues); inf for k = 0."""
-    c = np.trim_zeros(np.asarray(coefs, dtype=float), "b")
-    if c.size == 0:
+    c = np.asarray(coefs, dtype=float)
+    k = c.size
+    while k and c[k - 1] == 0.0:  # trailing zeros do not change the roots
+        k -= 1
+    if k == 0:
         return math.inf
     # roots z of the polynomial are 1 / eigenvalues of the companion of z^k + c_1 z^{k-1} + ... + c_k
-    companion = np.zeros((c.size, c.size))
-    companion[0, :] = -c
-    companion[np.arange(1, c.size), np.arange(c.size - 1)] = 1.0
+    companion = np.eye(k, k=-1)
+    companion[0, :] = -c[:k]
     biggest = float(np.max(np.abs(np.linalg.eigvals(companion))))
     return math.inf if biggest == 0.0 else 1.0 / biggest
 
