@@ -300,3 +300,61 @@ def test_saving_a_new_version_puts_its_id_in_the_address_bar(new_page, open_page
     expect(page.locator("#board-saved-version")).to_have_text("version 2")
     v2 = _id_of(store, title, 2)
     expect(page).to_have_url(f"{live_app.test_base_url}/board?analysis={v2}")
+
+
+def test_an_author_deletes_their_own_draft_after_a_confirm_step(
+    new_page, open_page, settle, live_app
+):
+    store = live_app.server.extensions["haulcast"]["store"]
+    token = uuid.uuid4().hex[:8]
+    draft_id = _saved_demo(store, f"Draft to delete {token}", publish=False)
+    published_id = _saved_demo(store, f"Kept for good {token}", publish=True)
+    page = new_page()
+    open_page(page, "/board", settle=False)
+    page.evaluate("localStorage.setItem('board-author', JSON.stringify({name: 'Ben Other'}))")
+
+    # a published analysis offers no delete at all
+    open_page(page, f"/board?analysis={published_id}", settle=False)
+    _wait_board(page, settle)
+    expect(page.locator("#board-saved-state")).to_have_text("published")
+    expect(page.locator("#board-delete-box")).to_be_hidden()
+
+    open_page(page, f"/board?analysis={draft_id}", settle=False)
+    _wait_board(page, settle)
+    expect(page.locator("#board-saved-state")).to_have_text("draft")
+    # the first click only asks, naming the draft; "No" leaves it alone
+    page.click("#board-delete")
+    question = page.locator("#board-delete-question")
+    expect(question).to_contain_text(f"Delete version 1 of \u201cDraft to delete {token}\u201d")
+    expect(question).to_contain_text("saved by Ana Analyst")
+    page.click("#board-delete-no")
+    expect(page.locator("#board-delete-confirm")).to_be_hidden()
+    assert store.get_analysis(draft_id).status == "draft"
+
+    # someone else's name in Your name: refused with a plain message, nothing deleted
+    page.click("#board-delete")
+    page.click("#board-delete-yes")
+    expect(page.locator("#board-saved-msg [role=alert]")).to_contain_text(
+        "only the author of a draft can delete it: version 1 was saved by Ana Analyst"
+    )
+    assert store.get_analysis(draft_id).status == "draft"
+
+    # the author (any case) deletes it: the forecast stays on the board, unsaved
+    page.fill("#board-save-name", "ana analyst")
+    page.click("#board-delete")
+    expect(page.locator("#board-delete-confirm")).to_be_visible()
+    page.click("#board-delete-yes")
+    expect(page.locator("#board-saved-msg")).to_contain_text(
+        f"Deleted the draft \u201cDraft to delete {token}\u201d (version 1)"
+    )
+    expect(page.locator("#board-saved-none")).to_be_visible()
+    expect(page.locator("#board-delete-box")).to_be_hidden()
+    expect(page.locator("#board-summary p").first).to_be_visible()
+    expect(page).to_have_url(f"{live_app.test_base_url}/board")  # the dead link is gone
+    assert draft_id not in {a.id for a in store.list_analyses(status="draft")}
+    assert store.get_analysis(published_id).status == "published"
+
+    # and the home page no longer lists it
+    open_page(page, "/", title="Saved analyses")
+    page.fill("#home-search", f"Draft to delete {token}")
+    expect(page.locator("#home-empty")).to_contain_text("No saved analysis matches")

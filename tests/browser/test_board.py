@@ -133,6 +133,11 @@ def test_downloads_csv_and_report_with_cautions(page, open_page, settle, tmp_pat
     for caution in fc.CAUTIONS:
         assert caution in report
     assert "data sha256" in report and "statsmodels" in report
+    # the demo's earlier published hake forecast, scored on this data, as on the board
+    record = report[report.index("<section class='record'>") :]
+    assert "<h2>How past forecasts did</h2>" in record
+    assert "Of 5 past forecast years" in record and "Miss, % of realised" in record
+    assert "<script" not in record[: record.index("</section>")]
 
 
 def test_presentation_mode_by_button_and_by_query(page, open_page, settle, screenshot):
