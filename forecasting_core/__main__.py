@@ -50,10 +50,10 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--json", action="store_true", help="print the report as JSON")
 
     fc = sub.add_parser("forecast", help="compare models for one series and forecast it")
-    fc.add_argument("file", metavar="FILE")
+    fc.add_argument("file", metavar="FILE", help="CSV, TSV or .xlsx file (wide or long layout)")
     fc.add_argument("--series", required=True, metavar="NAME", help="series (column or stock) name")
     fc.add_argument(
-        "--horizon", required=True, metavar="H", help="steps ahead at the series' frequency"
+        "--horizon", required=True, metavar="H", help="steps ahead at the series' frequency (1-30)"
     )
     fc.add_argument("--order", metavar="p,d,q", help="fit this ARIMA order instead of searching")
     fc.add_argument("--seasonal", metavar="P,D,Q,m", help="seasonal order")
@@ -71,9 +71,9 @@ def build_parser() -> argparse.ArgumentParser:
     batch = sub.add_parser(
         "batch", help="compare models and forecast every usable series of a file"
     )
-    batch.add_argument("file", metavar="FILE")
+    batch.add_argument("file", metavar="FILE", help="CSV, TSV or .xlsx file (wide or long layout)")
     batch.add_argument(
-        "--horizon", required=True, metavar="H", help="steps ahead at each series' frequency"
+        "--horizon", required=True, metavar="H", help="steps ahead at each series' frequency (1-30)"
     )
     batch.add_argument(
         "--transform",

@@ -7,6 +7,7 @@ what was given (exit code 2 in ``_cli_models``).
 from __future__ import annotations
 
 import math
+import os
 import re
 from collections.abc import Sequence
 from pathlib import Path
@@ -70,6 +71,67 @@ def parse_reference(value: Any) -> float | None:
             f"--reference must be a number on the series' scale. Got {value!r} instead."
         )
     return ref
+
+
+def _nearest_folder(path: Path) -> Path:
+    """The closest existing ancestor of ``path`` (``.`` for a bare name)."""
+    for parent in path.absolute().parents:
+        if parent.exists():
+            return parent
+    return Path(".")
+
+
+def check_csv_path(value: Any) -> Path | None:
+    """``--csv OUT``: a file to write in an existing, writable folder (checked before the run)."""
+    if value is None:
+        return None
+    text = str(value)
+    if not text.strip():
+        raise InputError("--csv must name a file such as forecast.csv. Got '' instead.")
+    path = Path(text)
+    if path.is_dir():
+        raise InputError(f"--csv must name a file, not a folder. Got {text!r} (a folder) instead.")
+    folder = path.absolute().parent
+    if not folder.is_dir():
+        raise InputError(
+            f"--csv must name a file in an existing folder. Got {text!r} instead; the folder "
+            f"{str(folder)!r} does not exist."
+        )
+    if not os.access(folder, os.W_OK) or (path.exists() and not os.access(path, os.W_OK)):
+        raise InputError(
+            f"--csv must name a file you may write. Got {text!r} instead (no permission)."
+        )
+    return path
+
+
+def check_out_dir(value: Any) -> Path | None:
+    """``--out DIR``: a folder (created when missing) that can be written (checked before the run)."""
+    if value is None:
+        return None
+    text = str(value)
+    if not text.strip():
+        raise InputError("--out must name a folder such as results. Got '' instead.")
+    path = Path(text)
+    if path.exists() and not path.is_dir():
+        raise InputError(f"--out must name a folder. Got {text!r} instead, which is a file.")
+    folder = path if path.is_dir() else _nearest_folder(path)
+    if not folder.is_dir():
+        raise InputError(
+            f"--out must name a folder that can be created. Got {text!r} instead; "
+            f"{str(folder)!r} is not a folder."
+        )
+    if not os.access(folder, os.W_OK):
+        raise InputError(
+            f"--out must name a folder you may write. Got {text!r} instead (no permission)."
+        )
+    return path
+
+
+def written(option: str, path: Any, exc: OSError) -> InputError:
+    """The plain message for an output file that could not be written after all."""
+    return InputError(
+        f"{option} {str(path)!r} cannot be written: {exc.strerror or exc}. Choose another path."
+    )
 
 
 def _read(path: Any):

@@ -19,10 +19,13 @@ from forecasting_core._cli_args import (
     _opt,
     _pick_series,
     _read,
+    check_csv_path,
+    check_out_dir,
     parse_horizon,
     parse_ints,
     parse_reference,
     parse_transform,
+    written,
 )
 from forecasting_core._cli_text import _batch_line, forecast_text, hindcast_lines
 from forecasting_core._cli_writers import (
@@ -85,6 +88,7 @@ def _forecast(args: Any) -> int:
         raise InputError("--seasonal needs --order as well. Got --seasonal only instead.")
     transform = parse_transform(_opt(args, "transform"))
     reference = parse_reference(_opt(args, "reference"))
+    csv_path = check_csv_path(_opt(args, "csv"))
     table = _read(_opt(args, "file"))
     y = _pick_series(table, _opt(args, "series"))
     settings: dict[str, Any] = {}
@@ -98,9 +102,11 @@ def _forecast(args: Any) -> int:
         data_sha256=table.sha256, source=table.source, **settings,
     )  # fmt: skip
     record = with_data_warnings(record, data_warnings(table, str(_opt(args, "series"))))
-    csv_path = _opt(args, "csv")
-    if csv_path:
-        write_forecast_csv(csv_path, [record], source=table.source)
+    if csv_path is not None:
+        try:
+            write_forecast_csv(csv_path, [record], source=table.source)
+        except OSError as exc:
+            raise written("--csv", csv_path, exc) from None
     if _opt(args, "json", False):
         _dump(record, sys.stdout)
     else:
@@ -111,7 +117,7 @@ def _forecast(args: Any) -> int:
             else None
         )
         print(forecast_text(record, verdict, unit, comparison.hindcast))
-        if csv_path:
+        if csv_path is not None:
             print(f"\nForecast table written to {csv_path}")
     return 0
 
@@ -139,7 +145,7 @@ def _batch(args: Any) -> int:
         )
     if scheduler is not None and not str(scheduler).strip():
         raise InputError("--scheduler needs an address such as tcp://host:8786. Got '' instead.")
-    out_dir = _opt(args, "out")
+    out_dir = check_out_dir(_opt(args, "out"))
     as_json = bool(_opt(args, "json", False))
     table = _read(_opt(args, "file"))
     if not table.info:
@@ -153,26 +159,32 @@ def _batch(args: Any) -> int:
     def on_progress(done: int, total: int, name: str) -> None:
         print(f"[{done}/{total}] {name} {status.pop(name, 'done')}", file=sys.stderr, flush=True)
 
-    records = iter_batch(
-        table, horizon, transform=transform, workers=workers, scheduler=scheduler,
-        progress=on_progress, on_result=on_result,
-    )  # fmt: skip
     # Records are written out as they come (file order) and not kept: only failures are.
     files: list[TextIO] = []
     models = rows = None
-    if out_dir:
-        out = Path(str(out_dir))
-        out.mkdir(parents=True, exist_ok=True)
-        models_fh = open(out / "models.json.partial", "w", encoding="utf-8")
-        files.append(models_fh)
-        rows_fh = open(out / "forecasts.csv.partial", "w", newline="", encoding="utf-8")
-        files.append(rows_fh)
-        models, rows = JsonListWriter(models_fh), rows_fh
-        _forecast_csv_head(rows_fh, table.source)
+    partial = (
+        [out_dir / "models.json.partial", out_dir / "forecasts.csv.partial"]
+        if out_dir is not None
+        else []
+    )
+    if out_dir is not None:
+        try:
+            out_dir.mkdir(parents=True, exist_ok=True)
+            files.append(open(partial[0], "w", encoding="utf-8"))
+            files.append(open(partial[1], "w", newline="", encoding="utf-8"))
+        except OSError as exc:
+            _close(files, partial)
+            raise written("--out", out_dir, exc) from None
+        models, rows = JsonListWriter(files[0]), files[1]
+        _forecast_csv_head(rows, table.source)
     stdout_json = JsonListWriter(sys.stdout) if as_json else None
     ok = 0
     failed: list[tuple[str, str, str]] = []
     try:
+        records = iter_batch(
+            table, horizon, transform=transform, workers=workers, scheduler=scheduler,
+            progress=on_progress, on_result=on_result,
+        )  # fmt: skip
         if not as_json:
             print(f"{table.source}: {len(table.info)} series, horizon {horizon}", flush=True)
         for r in records:
@@ -191,19 +203,17 @@ def _batch(args: Any) -> int:
             models.close()
         if stdout_json is not None:
             stdout_json.close()
-    finally:
-        for fh in files:
-            fh.close()
-    if out_dir:
-        out = Path(str(out_dir))
-        (out / "models.json.partial").replace(out / "models.json")
-        (out / "forecasts.csv.partial").replace(out / "forecasts.csv")
+    except BaseException:
+        _close(files, partial)  # no half-written outputs left behind
+        raise
+    _close(files, [])
+    if out_dir is not None:
+        partial[0].replace(out_dir / "models.json")
+        partial[1].replace(out_dir / "forecasts.csv")
     if not as_json:
         print(f"{ok} of {ok + len(failed)} series forecast.")
-        if out_dir:
-            print(
-                f"Written: {Path(str(out_dir)) / 'forecasts.csv'} and {Path(str(out_dir)) / 'models.json'}"
-            )
+        if out_dir is not None:
+            print(f"Written: {out_dir / 'forecasts.csv'} and {out_dir / 'models.json'}")
         print("Cautions:")
         for c in CAUTIONS:
             print(f"  - {c}")
@@ -212,6 +222,14 @@ def _batch(args: Any) -> int:
     if ok:
         return 0
     return 1 if any(kind == "internal" for *_, kind in failed) else 2
+
+
+def _close(files: list[TextIO], remove: list[Path]) -> None:
+    """Close the output files and delete ``remove`` (partial outputs of a failed run)."""
+    for fh in files:
+        fh.close()
+    for path in remove:
+        path.unlink(missing_ok=True)
 
 
 def _cli_forecast(args: Any) -> int:

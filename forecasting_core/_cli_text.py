@@ -47,7 +47,10 @@ def forecast_text(
 ) -> str:
     """Readable report of one forecast object (``hindcast``: optional Hindcast for scores)."""
     lines = []
-    unit_txt = f" ({unit})" if unit else ""
+    name = str(record["series"]).rstrip()
+    # The unit once: not again after a name that already ends with it (``Dorsch (t)``).
+    shown = unit and not name.endswith((f"({unit})", f"[{unit}]"))
+    unit_txt = f" ({unit})" if shown else ""
     tr = record["transform"]
     tr_txt = tr["name"] + (f", lambda {tr['lambda']:.3f}" if tr.get("lambda") is not None else "")
     lines.append(
@@ -108,8 +111,8 @@ def forecast_text(
 def _batch_line(r: dict[str, Any]) -> list[str]:
     """Readable lines of one forecast record in the batch summary."""
     first = r["forecast"][0]
-    dec = _decimals([first["median"]])
     lo, hi = first["intervals"].get("80", [None, None])
+    dec = _decimals([first["median"], lo, hi])
     hc = r.get("hindcast") or {}
     mase = f", hindcast MASE {hc['mase']:.2f}" if hc.get("mase") is not None else ""
     lines = [
