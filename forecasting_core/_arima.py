@@ -7,7 +7,9 @@ Everything statsmodels stays in this module (and in the filtering helper used by
 from __future__ import annotations
 
 import math
+import threading
 import warnings
+from collections import OrderedDict
 from collections.abc import Mapping
 from dataclasses import replace
 
@@ -101,21 +103,64 @@ def build_model(
     )
 
 
+#: statsmodels results kept per thread (the chosen model is filtered when it is found, then
+#: again for its forecast and its residual checks: the same numbers each time).
+FILTER_CACHE_SIZE = 4
+_FILTERED = threading.local()
+
+
+def _filter_key(z: np.ndarray, order, seasonal_order, constant: bool, params: Mapping[str, float]) -> tuple:
+    """Everything a ``filter(params)`` result depends on: data, model and parameters."""
+    return (
+        np.ascontiguousarray(z, dtype=float).tobytes(),
+        tuple(order),
+        tuple(seasonal_order) if seasonal_order else None,
+        bool(constant),
+        tuple(params.items()),
+    )
+
+
+def _recall(key: tuple):
+    cache = getattr(_FILTERED, "results", None)
+    if cache is None or key not in cache:
+        return None
+    cache.move_to_end(key)
+    return cache[key]
+
+
+def _remember(key: tuple, res) -> None:
+    cache = getattr(_FILTERED, "results", None)
+    if cache is None:
+        cache = _FILTERED.results = OrderedDict()
+    cache[key] = res
+    cache.move_to_end(key)
+    while len(cache) > FILTER_CACHE_SIZE:
+        cache.popitem(last=False)
+
+
 def filter_candidate(candidate: Candidate, z: np.ndarray | None = None):
     """statsmodels results of the candidate's stored parameters applied to its series (no refit).
 
-    ``z`` (transformed-scale values) defaults to the candidate's own series transformed.
+    ``z`` (transformed-scale values) defaults to the candidate's own series transformed. The
+    last few results are kept (per thread), so filtering the same parameters on the same data
+    again costs nothing.
     """
     if not candidate.ok:
         raise ValueError(f"{candidate.label} was rejected: {candidate.reason}")
     if z is None:
         z = transformed_values(candidate.series, candidate.transform)
+    key = _filter_key(z, candidate.order, candidate.seasonal_order, candidate.constant, candidate.params)
+    res = _recall(key)
+    if res is not None:
+        return res
     with warnings.catch_warnings(), one_blas_thread():
         warnings.simplefilter("ignore")
         model = build_model(z, candidate.order, candidate.seasonal_order, candidate.constant)
         names = _sm_names_to_ours(list(model.param_names))
         params = np.array([candidate.params[n] for n in names], dtype=float)
-        return model.filter(params, cov_type="none")
+        res = model.filter(params, cov_type="none")
+    _remember(key, res)
+    return res
 
 
 def _rejected(
@@ -476,6 +521,7 @@ def candidate_at(
     if not math.isfinite(llf) or nobs - k - 1 <= 0:
         return _rejected(y, order, seasonal_order, constant, spec, "fit failed: the likelihood is not finite", k, nobs)
     values = {n: float(params[n]) for n in names}
+    _remember(_filter_key(z, order, seasonal_order, constant, values), res)
     aic = -2.0 * llf + 2.0 * k
     aicc = aic + 2.0 * k * (k + 1) / (nobs - k - 1)
     bic = -2.0 * llf + k * math.log(nobs)
