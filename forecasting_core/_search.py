@@ -166,10 +166,10 @@ def _provenance(y: pd.Series) -> dict[str, Any]:
 
 
 def _differencing(y: pd.Series, spec: TransformSpec, seasonal: bool) -> tuple[int, int, str]:
-    from forecasting_core._stationarity import assess_stationarity
+    from forecasting_core._stationarity import choose_differences
 
-    report = assess_stationarity(y, transform=spec)
-    return int(report.d), int(report.seasonal_d) if seasonal else 0, report.verdict
+    d, big_d, verdict = choose_differences(y, transform=spec)
+    return d, big_d if seasonal else 0, verdict
 
 
 def compare_models(

@@ -118,16 +118,22 @@ def _adf(x: np.ndarray, regression: str, d: int, sd: int) -> StationarityTest:
     )  # fmt: skip
 
 
-def _kpss_order(x: np.ndarray, alpha: float = 0.05) -> tuple[int, list[StationarityTest]]:
+def _kpss_order(
+    x: np.ndarray, alpha: float = 0.05, known: dict[bytes, StationarityTest] | None = None
+) -> tuple[int, list[StationarityTest]]:
     """d by the KPSS level sequence: the first of 0, 1, 2 differences KPSS does not reject.
 
     ``x`` has no missing values (already interpolated, already seasonally differenced when
     D = 1). Returns d (capped at :data:`MAX_D`) and the KPSS level tests run on the way.
+    ``known`` maps the bytes of a series already tested (KPSS level) to that test's result,
+    reused when a difference of ``x`` is exactly that series.
     """
     tests = []
     z = np.asarray(x, dtype=float)
     for d in range(MAX_D + 1):
-        t = _kpss(z, "level", d, 0)
+        t = (known or {}).get(z.tobytes())
+        if t is None or t.differences != d or t.seasonal_differences != 0:
+            t = _kpss(z, "level", d, 0)
         tests.append(t)
         if np.isnan(t.pvalue) or t.pvalue >= alpha:
             return d, tests
@@ -219,6 +225,18 @@ def _validate(y: Any, alpha: float) -> pd.Series:
     return y.reindex(full)
 
 
+def choose_differences(
+    y: pd.Series, *, transform: str | TransformSpec = "none", alpha: float = 0.05
+) -> tuple[int, int, str]:
+    """``(d, D, verdict)`` of :func:`assess_stationarity`, without the rest of its report.
+
+    The same rules, tests and verdict text; the tests the verdict does not read (those around
+    a linear trend) and the correlograms are left out. ``compare_models`` uses this.
+    """
+    report = _assess(y, transform, alpha, full=False)
+    return int(report.d), int(report.seasonal_d), report.verdict
+
+
 def assess_stationarity(
     y: pd.Series, *, transform: str | TransformSpec = "none", alpha: float = 0.05
 ) -> StationarityReport:
@@ -247,6 +265,12 @@ def assess_stationarity(
         Not a Series with a PeriodIndex, too few observed values, or a transform the data
         do not allow (e.g. a log of a value at or below 0, naming the period).
     """
+    return _assess(y, transform, alpha, full=True)
+
+
+def _assess(y: pd.Series, transform: str | TransformSpec, alpha: float, full: bool) -> StationarityReport:
+    """:func:`assess_stationarity`; ``full=False`` leaves out what the verdict does not read
+    (tests around a trend, correlograms: empty in that report)."""
     y = _validate(y, alpha)
     freq = frequency_of(y)
     m = period_length(y)
@@ -282,19 +306,25 @@ def assess_stationarity(
     correlograms: list[Correlogram] = []
     flat: set[int] = set()
     current, current_filled = base, base_filled
+    known: dict[bytes, StationarityTest] = {}  # KPSS level tests by the series tested
+    regressions = ("level", "trend") if full else ("level",)
     for k in range(MAX_D + 1):
         if k:
             current, current_filled = current.diff().iloc[1:], current_filled.diff().iloc[1:]
-        differenced[k] = current.rename(y.name)
+        if full:
+            differenced[k] = current.rename(y.name)
         x = current_filled.to_numpy(dtype=float)
         if _flat(x):
             flat.add(k)
         for test in ("ADF", "KPSS"):
-            for reg in ("level", "trend"):
+            for reg in regressions:
                 tests.append((_adf if test == "ADF" else _kpss)(x, reg, k, sd))
-        correlograms.append(_correlogram(x, k, sd, freq))
+                if test == "KPSS" and reg == "level":
+                    known[x.tobytes()] = tests[-1]
+        if full:
+            correlograms.append(_correlogram(x, k, sd, freq))
 
-    d, sequence = _kpss_order(base_filled.to_numpy(dtype=float), alpha)
+    d, sequence = _kpss_order(base_filled.to_numpy(dtype=float), alpha, known if sd == 0 else None)
     capped = d == MAX_D and sequence[-1].pvalue < alpha
     adf_d = _adf_order(tests, alpha, frozenset(flat))
     # ADF never rejecting (adf_d None) agrees with a capped KPSS sequence: both want more than 2.

@@ -302,3 +302,31 @@ def test_any_annual_series_gives_a_report_or_a_plain_input_error(values, transfo
     except InputError:
         return
     assert 0 <= report.d <= 2 and report.verdict
+
+
+def _cases_for_choose_differences():
+    rng = np.random.default_rng(606)
+    walk = np.exp(5.0 + np.cumsum(rng.normal(0.0, 0.1, 60)))
+    gappy = walk.copy()
+    gappy[[7, 30]] = np.nan
+    season = np.tile([0.0, 0.4, 0.9, 0.3], 20)[:72]
+    seasonal_walk = 10.0 + np.tile(season[:12] * 3, 7)[:72] + np.cumsum(rng.normal(0.0, 0.3, 72))
+    return [
+        ("random walk", annual(walk), "none"),
+        ("random walk, log, gaps", annual(gappy), "log"),
+        ("stationary AR(1)", annual(10.0 + ar1(50, 0.5, rng)), "none"),
+        ("twice integrated", annual(np.cumsum(np.cumsum(rng.normal(size=60)))), "none"),
+        ("straight line", annual(5.0 + 2.0 * np.arange(30)), "none"),
+        ("monthly seasonal", monthly(seasonal_walk), "none"),
+        ("monthly, auto", monthly(np.exp(seasonal_walk / 10.0)), "auto"),
+    ]
+
+
+@pytest.mark.parametrize(("case", "y", "transform"), _cases_for_choose_differences())
+def test_choose_differences_gives_the_full_reports_d_and_verdict(case, y, transform):
+    from forecasting_core._stationarity import choose_differences
+
+    report = assess_stationarity(y, transform=transform)
+    assert choose_differences(y, transform=transform) == (
+        report.d, report.seasonal_d, report.verdict,
+    ), case  # fmt: skip
