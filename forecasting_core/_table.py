@@ -63,6 +63,7 @@ from forecasting_core._table_comments import (
     comments_above,
     drop_comments_in_table,
     header_written_as_comment,
+    is_number_or_time,
 )
 from forecasting_core._table_parse import (
     Grid,
@@ -267,6 +268,17 @@ class _Reader(RowsMixin):
         widths = Counter(count(i) for i in filled[:60])
         typical = max(w for w, n in widths.items() if n == max(widths.values()))
         header = next((i for i in filled[:12] if count(i) >= typical), filled[0])
+        # A header with a few empty names (or a units row under it) is narrower than the data:
+        # when the first full row holds values, the header is the earliest of the text rows
+        # right above it that fill at least half the width.
+        if sum(map(is_number_or_time, rows[header])) * 2 >= count(header):
+            before = [i for i in filled if i < header]
+            while (
+                before
+                and count(before[-1]) >= max(2, typical / 2)
+                and not any(map(is_number_or_time, rows[before[-1]]))
+            ):
+                header = before.pop()
         skipped = [i for i in filled if i < header]
         if skipped:
             shown = "; ".join(

@@ -29,7 +29,8 @@ def _count(row: Sequence[Cell]) -> int:
     return sum(not is_empty(c) for c in row)
 
 
-def _numeric(cell: Cell) -> bool:
+def is_number_or_time(cell: Cell) -> bool:
+    """True for a cell that holds a number or a time (data, not a header)."""
     if is_empty(cell):
         return False
     return (
@@ -64,9 +65,9 @@ def header_written_as_comment(
         return None
     first = cell_text(rows[c][0]).strip().lstrip("#").strip()
     candidate = [first, *rows[c][1:]]
-    if not first or any(_numeric(cell) for cell in candidate):
+    if not first or any(is_number_or_time(cell) for cell in candidate):
         return None
-    if not any(_numeric(cell) for cell in rows[header]):
+    if not any(is_number_or_time(cell) for cell in rows[header]):
         return None
     rows[c] = candidate
     comments.discard(c)

@@ -111,7 +111,8 @@ class RowsMixin:
             if kind in ("Y", "Q", "M", "D"):
                 parsed.append((row, kind, parts, cells))
                 continue
-            if kind == "words" or (kind == "empty" and not has_values):
+            if kind == "words" or (not has_values and kind in ("empty", "bad", "range")):
+                # Nothing is lost: the row has no values (a note such as 'Source: ... 2018').
                 what = f"{short(raw)!r} is not a time" if raw else "it has no time"
                 self.note(
                     "warning",
