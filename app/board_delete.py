@@ -37,14 +37,15 @@ def _draft(data: Mapping[str, Any] | None, opened: Mapping[str, Any] | None, sto
     return analysis
 
 
-def question(analysis: Any) -> str:
-    """The confirm step's question, naming the draft."""
+def question(analysis: Any, *, on_board: bool = True) -> str:
+    """The confirm step's question, naming the draft (``on_board``: the board's wording)."""
     title = analysis.title or analysis.series
-    return (
+    text = (
         f"Delete version {analysis.version} of \u201c{title}\u201d (a draft saved by "
         f"{analysis.author} on {saved.fmt_time(analysis.created_at)}) for good? It cannot be "
-        "brought back. The forecast stays on the board, unsaved."
+        "brought back."
     )
+    return text + (" The forecast stays on the board, unsaved." if on_board else "")
 
 
 @callback(

@@ -177,8 +177,11 @@ def record_html(record: fc.ForecastRecord, analyses: Sequence[Mapping[str, Any]]
                 cells.append(f"<td class='muted'>{e(row['note'])}</td>")
             elif key.startswith("in"):
                 flag = row.get(key)
-                word = "" if flag is None else "\u2714 inside" if flag else "\u2716 outside"
-                cells.append(f"<td>{e(word)}</td>")
+                if flag is None:
+                    cells.append("<td></td>")
+                else:  # a mark and a word, not only colour
+                    cls, word = ("in", "\u2714 inside") if flag else ("out", "\u2716 outside")
+                    cells.append(f"<td class='{cls}'>{e(word)}</td>")
             else:
                 cells.append(f"<td>{e(str(row.get(key, '')))}</td>")
         cls = " class='first'" if row["first"] and body else ""

@@ -57,6 +57,9 @@ code { font-size: 12px; }
 .record-table td.muted, .note { color: #6b7783; }
 .note { font-size: 12px; }
 th[title] { cursor: help; }
+h3 { font-size: 15px; margin: 16px 0 6px; }
+td.in { color: #2d6a3e; }
+td.out { color: #b0402c; font-weight: 600; }
 """
 
 

@@ -2,7 +2,8 @@
 
 Each row opens its analysis on the Forecast Board (``/board?analysis=<id>``) with the dataset,
 series and settings restored; drafts open there too, since saving, publishing and sign-off
-live on the board. Saved analyses are shared by everyone on this server; an upload that was
+live on the board. A draft's row also has "Delete…" (after a confirm step, for its author;
+:mod:`app.home_delete`). Saved analyses are shared by everyone on this server; an upload that was
 never saved stays private to its browser session.
 """
 
@@ -13,7 +14,7 @@ from typing import Any
 import dash
 from dash import Input, Output, callback, dcc, html
 
-from app import saved
+from app import home_delete, saved
 from app.ui import guarded, html_table, page_header
 
 dash.register_page(__name__, path="/", name="Home", order=0, title="Saved analyses \u00b7 Haulcast")
@@ -92,6 +93,10 @@ def layout(**_query: Any) -> html.Div:
                 className="hc-row home-controls",
             ),
             html.P(id="home-count", className="hc-muted home-count", **{"aria-live": "polite"}),
+            dcc.Store(id=home_delete.REFRESH_ID, data=0),
+            dcc.Store(id=home_delete.TARGET_ID),
+            home_delete.confirm_box(),
+            html.Div(id="home-delete-msg", **{"aria-live": "polite"}),
             html.Div(id="home-list", className="home-list"),
             html.P(
                 [
@@ -110,10 +115,13 @@ def layout(**_query: Any) -> html.Div:
     )
 
 
-def _status(analysis: Any) -> html.Span:
-    return html.Span(
+def _status(analysis: Any) -> Any:
+    tag = html.Span(
         analysis.status, className=f"hc-tag board-status board-status--{analysis.status}"
     )
+    if analysis.status != "draft":
+        return tag
+    return html.Span([tag, home_delete.delete_button(analysis)], className="home-status")
 
 
 def _rows(items: list[Any], superseded: dict[str, int], show_stock: bool) -> list[dict[str, Any]]:
@@ -168,9 +176,10 @@ def _table(items: list[Any], superseded: dict[str, int], sort: str) -> html.Tabl
     Input("home-status", "value"),
     Input("home-sort", "value"),
     Input("home-versions", "value"),
+    Input(home_delete.REFRESH_ID, "data"),
 )
 @guarded("listing the saved analyses", outputs=2, alert_at=0)
-def show_list(query: Any, status: Any, sort: Any, versions: Any) -> list[Any]:
+def show_list(query: Any, status: Any, sort: Any, versions: Any, _refresh: Any = None) -> list[Any]:
     from app.store import get_store
 
     everything = get_store().list_analyses(limit=LIST_LIMIT)

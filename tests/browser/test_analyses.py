@@ -358,3 +358,50 @@ def test_an_author_deletes_their_own_draft_after_a_confirm_step(
     open_page(page, "/", title="Saved analyses")
     page.fill("#home-search", f"Draft to delete {token}")
     expect(page.locator("#home-empty")).to_contain_text("No saved analysis matches")
+
+
+def test_a_draft_is_deleted_from_the_home_page_after_a_confirm_step(
+    new_page, open_page, live_app, screenshot
+):
+    store = live_app.server.extensions["haulcast"]["store"]
+    token = uuid.uuid4().hex[:8]
+    draft_id = _saved_demo(store, f"Home draft {token}", publish=False)
+    _saved_demo(store, f"Home published {token}", publish=True)
+    page = new_page()
+    open_page(page, "/", title="Saved analyses")
+    page.evaluate("localStorage.setItem('board-author', JSON.stringify({name: 'Ana Analyst'}))")
+    page.fill("#home-search", token)
+    rows = page.locator(".home-table tbody tr")
+    expect(rows).to_have_count(2)
+    # only the draft's row offers Delete…
+    expect(rows.filter(has_text="Home published").locator("button.home-delete")).to_have_count(0)
+    draft_row = rows.filter(has_text="Home draft")
+    draft_row.locator("button.home-delete").click()
+    confirm = page.locator("#home-delete-confirm")
+    expect(confirm).to_be_visible()
+    expect(page.locator("#home-delete-question")).to_contain_text(
+        f"Delete version 1 of \u201cHome draft {token}\u201d (a draft saved by Ana Analyst"
+    )
+    # the name this browser saved under on the board is filled in
+    expect(page.locator("#home-delete-name")).to_have_value("Ana Analyst")
+    screenshot(page, "home-delete-confirm")
+    page.click("#home-delete-no")
+    expect(confirm).to_be_hidden()
+    assert store.get_analysis(draft_id).status == "draft"
+
+    # another name is refused plainly; then the author deletes it and the list is redrawn
+    draft_row.locator("button.home-delete").click()
+    page.fill("#home-delete-name", "Ben Other")
+    page.click("#home-delete-yes")
+    expect(page.locator("#home-delete-msg [role=alert]")).to_contain_text(
+        "only the author of a draft can delete it"
+    )
+    page.fill("#home-delete-name", "Ana Analyst")
+    page.click("#home-delete-yes")
+    expect(page.locator("#home-delete-msg")).to_contain_text(
+        f"Deleted the draft \u201cHome draft {token}\u201d (version 1)"
+    )
+    expect(confirm).to_be_hidden()
+    expect(rows).to_have_count(1)
+    expect(rows.first).to_contain_text("Home published")
+    assert draft_id not in {a.id for a in store.list_analyses(status="draft")}
