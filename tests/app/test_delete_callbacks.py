@@ -1,0 +1,121 @@
+"""The delete-draft callbacks of the board and the home page, called as Dash would call them:
+every input a user (or a hand-made request) can get wrong gets a plain message in the page,
+nothing else changes, and a real deletion hands the board a selection naming no analysis."""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from app import board_delete, create_app, home_delete, saved
+from app.state import update_selection
+
+CSV = b"year,cod_t\n" + b"".join(
+    f"{y},{100 + 3 * (y - 1990) + y % 4}\n".encode() for y in range(1990, 2020)
+)
+
+
+@pytest.fixture(scope="module")
+def app(tmp_path_factory):
+    return create_app(
+        {
+            "DATA_DIR": str(tmp_path_factory.mktemp("data")),
+            "CACHE_TYPE": "SimpleCache",
+            "LOAD_SAMPLES": False,
+        }
+    )
+
+
+@pytest.fixture
+def store(app):
+    return app.server.extensions["haulcast"]["store"]
+
+
+def _saved(store, *, publish: bool = False, author: str = "Ana"):
+    dataset = store.save(CSV, "cod.csv")
+    a = store.save_analysis(
+        dataset_id=dataset,
+        series="cod_t",
+        settings={"horizon": 3},
+        model="ARIMA(0,1,1)",
+        forecast={"forecast": [{"time": "2020", "mean": 1.5}]},
+        author=author,
+        title="Cod <b>draft</b>",
+    )
+    return store.publish(a.id, author=author) if publish else a
+
+
+def _text(component) -> str:
+    return json.dumps(component.to_plotly_json(), default=str) if component is not None else ""
+
+
+@pytest.mark.parametrize(
+    ("target", "name", "message"),
+    [
+        ("../../etc/passwd", "Ana", "analysis id must be 32 hexadecimal digits"),
+        ("f" * 32, "Ana", "was not found on this server"),
+        ("draft", "", "Your name is needed"),
+        ("draft", "Ben", "only the author of a draft can delete it"),
+        ("published", "Ana", "published analyses are never deleted"),
+    ],
+)
+def test_home_delete_answers_every_bad_request_plainly(app, store, target, name, message):
+    ids = {"draft": _saved(store).id, "published": _saved(store, publish=True).id}
+    target = ids.get(target, target)
+    with app.server.test_request_context():
+        style, msg, refresh = home_delete.delete(1, name, target, 3)
+    assert message in _text(msg) and "Check this" in _text(msg)
+    assert refresh is style  # both no_update: the list and the confirm step stay as they were
+    assert store.get_analysis(ids["draft"]).status == "draft"
+
+
+def test_home_delete_removes_the_draft_and_redraws_the_list(app, store):
+    draft = _saved(store)
+    with app.server.test_request_context():
+        style, msg, refresh = home_delete.delete(1, " ana ", draft.id, 3)
+    assert style == {"display": "none"} and refresh == 4
+    assert "Deleted the draft" in _text(msg) and "Cod <b>draft</b>" in _text(msg)  # text, as data
+    assert draft.id not in {a.id for a in store.list_analyses()}
+
+
+def test_board_delete_gives_the_board_a_selection_naming_no_analysis(app, store):
+    draft = _saved(store)
+    opened = {"id": draft.id, "selection": saved.selection_from_analysis(draft), "tick": 0}
+    with app.server.test_request_context():
+        new_open, msg, style = board_delete.delete(1, "Ana", None, opened)
+    assert new_open["id"] is None and new_open["deleted"] == draft.id
+    sel = new_open["selection"]
+    assert sel["analysis"] is None
+    assert (sel["dataset_id"], sel["series"]) == (draft.dataset_id, "cod_t")  # same forecast
+    assert "not saved now; save it again to keep it" in _text(msg)
+    assert style == {"display": "none"}
+
+
+@pytest.mark.parametrize(
+    ("which", "message"),
+    [
+        (None, "no saved draft is open on the board"),
+        ("published", "published analyses are never deleted"),
+        ("bad", "no saved draft is open on the board"),  # a malformed id names nothing
+    ],
+)
+def test_board_delete_refuses_what_is_not_a_saved_draft(app, store, which, message):
+    data = update_selection(None)
+    if which == "published":
+        data["analysis"] = _saved(store, publish=True).id
+    elif which == "bad":
+        data["analysis"] = "0" * 31 + "G"
+    with app.server.test_request_context():
+        new_open, msg, style = board_delete.delete(1, "Ana", data, None)
+        asked = board_delete.ask(1, data, None)
+    assert message in _text(msg) and message in _text(asked[2])
+    assert new_open is style  # no_update
+
+
+def test_the_confirm_question_names_the_draft_and_its_author(store):
+    draft = _saved(store)
+    text = board_delete.question(draft)
+    assert text.startswith("Delete version 1 of \u201cCod <b>draft</b>\u201d (a draft saved by Ana")
+    assert text.endswith("The forecast stays on the board, unsaved.")
+    assert "board" not in board_delete.question(draft, on_board=False)
