@@ -27,7 +27,7 @@ from forecasting_core._cli_args import (
     parse_transform,
     written,
 )
-from forecasting_core._cli_text import _batch_line, forecast_text, hindcast_lines
+from forecasting_core._cli_text import _batch_line, file_findings, forecast_text, hindcast_lines
 from forecasting_core._cli_writers import (
     CSV_COLUMNS,
     JsonListWriter,
@@ -178,6 +178,7 @@ def _batch(args: Any) -> int:
         models, rows = JsonListWriter(files[0]), files[1]
         _forecast_csv_head(rows, table.source)
     stdout_json = JsonListWriter(sys.stdout) if as_json else None
+    shown: dict[str, None] = {} if as_json else dict.fromkeys(file_findings(table))  # once
     ok = 0
     failed: list[tuple[str, str, str]] = []
     try:
@@ -187,6 +188,8 @@ def _batch(args: Any) -> int:
         )  # fmt: skip
         if not as_json:
             print(f"{table.source}: {len(table.info)} series, horizon {horizon}", flush=True)
+            for line in shown:
+                print(f"  {line}", flush=True)
         for r in records:
             if models is not None and rows is not None:
                 models.add(r)
@@ -198,7 +201,7 @@ def _batch(args: Any) -> int:
                 continue
             ok += 1
             if not as_json:
-                print("\n".join(_batch_line(r)), flush=True)
+                print("\n".join(_batch_line(r, shown)), flush=True)
         if models is not None:
             models.close()
         if stdout_json is not None:

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable
+from collections.abc import Collection, Iterable
 from typing import Any
 
 from forecasting_core._results import CAUTIONS
@@ -108,8 +108,23 @@ def forecast_text(
     return "\n".join(lines)
 
 
-def _batch_line(r: dict[str, Any]) -> list[str]:
-    """Readable lines of one forecast record in the batch summary."""
+def file_findings(table: Any) -> list[str]:
+    """The file check's file-wide findings as record warnings write them ("File check: ...").
+
+    These are the problems without a series column (rows, the time column, columns that are
+    not series); every batch record carries them, so the readable summary prints them once.
+    """
+    from forecasting_core._batch import problem_text
+
+    return [
+        f"File check: {problem_text(p)}"
+        for p in table.problems
+        if p.column is None or p.column not in table.info
+    ]
+
+
+def _batch_line(r: dict[str, Any], shown: Collection[str] = ()) -> list[str]:
+    """Readable lines of one forecast record in the batch summary (without ``shown`` warnings)."""
     first = r["forecast"][0]
     lo, hi = first["intervals"].get("80", [None, None])
     dec = _decimals([first["median"], lo, hi])
@@ -119,5 +134,5 @@ def _batch_line(r: dict[str, Any]) -> list[str]:
         f"  {r['series']}: {r['model']['label']}; {first['time']} median "
         f"{_num(first['median'], dec)} (80% {_num(lo, dec)} to {_num(hi, dec)}){mase}"
     ]
-    lines.extend(f"      warning: {w}" for w in r["warnings"])
+    lines.extend(f"      warning: {w}" for w in r["warnings"] if w not in shown)
     return lines

@@ -127,3 +127,24 @@ def test_help_describes_file_and_the_horizon_range(command, capsys):
     out = " ".join(capsys.readouterr().out.split())
     assert "FILE CSV, TSV or .xlsx file (wide or long layout)" in out
     assert "frequency (1-30)" in out
+
+
+def test_batch_summary_prints_file_wide_findings_once(tmp_path, capsys, monkeypatch):
+    import forecasting_core._search as search_mod
+
+    real = search_mod.compare_models  # small fixed order: plumbing, not model quality
+    monkeypatch.setattr(
+        search_mod, "compare_models",
+        lambda y, *a, **k: real(y, *a, **{**k, "order": (0, 1, 1), "hindcast_origins": 2}),
+    )  # fmt: skip
+    lines = ["# port log export", "year,cod_t,ling_t,note"]
+    for i in range(25):
+        lines.append(f"{1996 + i},{500 + 7 * i + (i % 3) * 11},{80 + (i % 4)},checked")
+    src = tmp_path / "logged.csv"
+    src.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    assert main(["batch", str(src), "--horizon", "2", "--workers", "1"]) == 0
+    out = capsys.readouterr().out
+    comment = "File check: row 1: row 1 above the header (row 2) starts with '#'"
+    note = "File check: row 3, column 'note': column 'note' holds text"
+    assert out.count(comment) == 1 and out.count(note) == 1
+    assert out.index(comment) < out.index("cod_t: ARIMA(0,1,1)")
