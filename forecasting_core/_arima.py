@@ -50,9 +50,13 @@ def transformed_values(y: pd.Series, spec: TransformSpec) -> np.ndarray:
     """Original-scale series -> float array on the transformed scale (NaN stays NaN)."""
     if spec.name == "none":
         return np.asarray(y, dtype=float).copy()
+    from forecasting_core._results import InputError
     from forecasting_core._transform import transform_series
 
-    return np.asarray(transform_series(y, spec), dtype=float)
+    try:  # on the values (no Series built and unpacked again): the same numbers
+        return np.asarray(transform_series(np.asarray(y, dtype=float), spec), dtype=float)
+    except InputError:  # the Series' own message names the period
+        return np.asarray(transform_series(y, spec), dtype=float)
 
 
 def trend_code(order: tuple[int, int, int], seasonal_order: tuple[int, int, int, int] | None, constant: bool) -> str:
@@ -81,6 +85,14 @@ def model_label(order: tuple[int, int, int], seasonal_order: tuple[int, int, int
 
 def _sm_names_to_ours(names: list[str]) -> list[str]:
     return ["drift" if n == "x1" else n for n in names]
+
+
+def _names(model) -> list[str]:
+    """Our names of a statsmodels model's parameters (statsmodels recomputes them per call)."""
+    names = model.__dict__.get("_haulcast_names")
+    if names is None:
+        names = model.__dict__["_haulcast_names"] = _sm_names_to_ours(list(model.param_names))
+    return list(names)
 
 
 def build_model(
@@ -480,7 +492,7 @@ def statsmodels_start(model) -> dict[str, float] | None:
             start = np.asarray(model.start_params, dtype=float)
     except Exception:  # noqa: BLE001 - no start, no extra check
         return None
-    names = _sm_names_to_ours(list(model.param_names))
+    names = _names(model)
     if not np.all(np.isfinite(start)):
         return None
     return dict(zip(names, (float(v) for v in start), strict=True))
@@ -512,7 +524,7 @@ def candidate_at(
             warnings.simplefilter("ignore")
             if model is None:
                 model = build_model(z, order, seasonal_order, constant)
-            names = _sm_names_to_ours(list(model.param_names))
+            names = _names(model)
             res = model.filter(np.array([params[n] for n in names], dtype=float), cov_type="none")
     except Exception as exc:  # noqa: BLE001 - any statsmodels/numpy failure becomes a reason
         return _rejected(y, order, seasonal_order, constant, spec, f"fit failed: {type(exc).__name__}: {exc}")

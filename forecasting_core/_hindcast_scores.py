@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -181,15 +182,12 @@ def errors_frame(blocks: Mapping[str, Block]) -> pd.DataFrame:
     sizes = [len(b["step"]) for b in blocks.values()]
     if not sum(sizes):
         return pd.DataFrame([], columns=[*ERROR_COLUMNS, "scale"])[ERROR_COLUMNS].reset_index(drop=True)
-    columns: dict[str, list | np.ndarray] = {
-        "model": [label for label, size in zip(blocks, sizes, strict=True) for _ in range(size)]
-    }
+    # text columns typed at once as pandas' default string dtype (what it infers from str)
+    labels = np.array([label for label, size in zip(blocks, sizes, strict=True) for _ in range(size)], dtype=object)
+    columns: dict[str, Any] = {"model": pd.array(labels, dtype="str")}
     for c in ERROR_COLUMNS[1:]:
-        parts = [b[c] for b in blocks.values()]
-        if c in ("origin", "time"):
-            columns[c] = [v for part in parts for v in part.tolist()]
-        else:
-            columns[c] = np.concatenate(parts)
+        joined = np.concatenate([b[c] for b in blocks.values()])
+        columns[c] = pd.array(joined.astype(object), dtype="str") if c in ("origin", "time") else joined
     return pd.DataFrame(columns, columns=ERROR_COLUMNS)
 
 
