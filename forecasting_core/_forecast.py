@@ -20,6 +20,7 @@ mu_h + e < T(R). Median and mean stay the model's.
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Sequence
 from typing import Any
@@ -45,6 +46,12 @@ __all__ = ["make_forecast", "predictive"]
 BAND_SOURCES = ("model", "hindcast errors")
 #: Fewer past errors than this per step make empirical bands unreliable (a warning says so).
 MIN_ERRORS = 8
+
+
+@functools.cache
+def _quantile(level: int) -> float:
+    """Standard normal quantile of the upper end of a central ``level``% band (scipy, once)."""
+    return norm.ppf(0.5 + level / 200.0)
 
 
 def predictive(model: Candidate | Benchmark, steps: int) -> tuple[np.ndarray, np.ndarray]:
@@ -207,7 +214,7 @@ def make_forecast(
     t_ref = float(_forward(ref, spec)[0]) if ref is not None else math.nan
     if band_source == "model":
         for lv in levels_t:
-            zq = norm.ppf(0.5 + lv / 200.0)
+            zq = _quantile(lv)
             table[f"lo{lv}"] = _back(mu - zq * sd, spec)
             table[f"hi{lv}"] = _back(mu + zq * sd, spec)
         if ref is None:
