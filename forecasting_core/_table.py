@@ -268,17 +268,34 @@ class _Reader(RowsMixin):
         widths = Counter(count(i) for i in filled[:60])
         typical = max(w for w, n in widths.items() if n == max(widths.values()))
         header = next((i for i in filled[:12] if count(i) >= typical), filled[0])
-        # A header with a few empty names (or a units row under it) is narrower than the data:
-        # when the first full row holds values, the header is the earliest of the text rows
-        # right above it that fill at least half the width.
-        if sum(map(is_number_or_time, rows[header])) * 2 >= count(header):
+
+        # A header with an empty name or two (or a units row under it) is narrower than the
+        # data: when the first full row is data (numbers where the next row has them), the
+        # header is the earliest of the text rows filling half the width right above it and
+        # above any data rows with gaps before it.
+        def like_next(i: int, j: int) -> bool:
+            """Row i holds numbers, in the same filled columns as row j does."""
+            pairs = [
+                (is_number_or_time(a), is_number_or_time(b))
+                for a, b in zip(rows[i], rows[j], strict=False)
+                if not is_empty(a) and not is_empty(b)
+            ]
+            return any(a for a, _ in pairs) and all(a == b for a, b in pairs)
+
+        after = next((i for i in filled if i > header), None)
+        if after is not None and like_next(header, after):
             before = [i for i in filled if i < header]
+            while before and like_next(before[-1], header):  # data rows with gaps
+                before.pop()
+            text_row = None
             while (
                 before
                 and count(before[-1]) >= max(2, typical / 2)
                 and not any(map(is_number_or_time, rows[before[-1]]))
             ):
-                header = before.pop()
+                text_row = before.pop()
+            if text_row is not None:
+                header = text_row
         skipped = [i for i in filled if i < header]
         if skipped:
             shown = "; ".join(

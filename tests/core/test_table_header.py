@@ -64,3 +64,21 @@ def test_a_footer_note_with_digits_and_no_values_is_a_warning(footer):
         p.severity == "warning" and p.row == row and f"row {row} was skipped" in p.message
         for p in table.problems
     )
+
+
+def test_a_numbered_header_under_a_title_stays_the_header():
+    # Station numbers as column names: the header row holds numbers but is no data row.
+    lines = ["Catch per station, tonnes", "year,1,2,3"]
+    lines += [f"{y},{10 + i},{20 + i},{30 + i}" for i, y in enumerate(YEARS)]
+    table = read_table(("\n".join(lines) + "\n").encode(), name="n.csv")
+    assert list(table.series) == ["1", "2", "3"]
+    assert any("row 1 above the header (row 2)" in p.message for p in table.problems)
+
+
+def test_a_header_with_an_empty_name_over_a_first_row_with_gaps_stays_the_header():
+    lines = ["year,hake,,ling"] + [
+        f"{y},{'' if i < 3 else 100 + i},{200 + i},{300 + i}" for i, y in enumerate(YEARS)
+    ]
+    table = read_table(("\n".join(lines) + "\n").encode(), name="g.csv")
+    assert list(table.series) == ["hake", "column 3", "ling"]
+    assert table.series["ling"].loc["1990"] == 300.0
