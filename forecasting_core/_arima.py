@@ -7,15 +7,14 @@ Everything statsmodels stays in this module (and in the filtering helper used by
 from __future__ import annotations
 
 import math
-import threading
 import warnings
-from collections import OrderedDict
 from collections.abc import Mapping
 from dataclasses import replace
 
 import numpy as np
 import pandas as pd
 
+from forecasting_core._filter_cache import FILTER_CACHE_SIZE, _filter_key, _recall, _remember  # noqa: F401
 from forecasting_core._results import Candidate, TransformSpec
 
 #: A root of the AR or MA lag polynomial closer than this to the unit circle is rejected.
@@ -113,41 +112,6 @@ def build_model(
         trend=trend_code(order, seasonal_order, constant),
         concentrate_scale=concentrate_scale,
     )
-
-
-#: statsmodels results kept per thread (the chosen model is filtered when it is found, then
-#: again for its forecast and its residual checks: the same numbers each time).
-FILTER_CACHE_SIZE = 4
-_FILTERED = threading.local()
-
-
-def _filter_key(z: np.ndarray, order, seasonal_order, constant: bool, params: Mapping[str, float]) -> tuple:
-    """Everything a ``filter(params)`` result depends on: data, model and parameters."""
-    return (
-        np.ascontiguousarray(z, dtype=float).tobytes(),
-        tuple(order),
-        tuple(seasonal_order) if seasonal_order else None,
-        bool(constant),
-        tuple(params.items()),
-    )
-
-
-def _recall(key: tuple):
-    cache = getattr(_FILTERED, "results", None)
-    if cache is None or key not in cache:
-        return None
-    cache.move_to_end(key)
-    return cache[key]
-
-
-def _remember(key: tuple, res) -> None:
-    cache = getattr(_FILTERED, "results", None)
-    if cache is None:
-        cache = _FILTERED.results = OrderedDict()
-    cache[key] = res
-    cache.move_to_end(key)
-    while len(cache) > FILTER_CACHE_SIZE:
-        cache.popitem(last=False)
 
 
 def filter_candidate(candidate: Candidate, z: np.ndarray | None = None):

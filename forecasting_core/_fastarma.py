@@ -25,18 +25,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from forecasting_core._fastkernels import (
-    HAVE_NUMBA,
-    _admissible,
-    _bfgs,
-    _constrain,
-    _harvey_loglik,
-    _harvey_loglik_py,
-    _roots_ok,
-)
+from forecasting_core._fastkernels import HAVE_NUMBA, _bfgs, _harvey_loglik, _harvey_loglik_py
 from forecasting_core._fastkernels import _finish as _finish_kernel
+from forecasting_core._fastroots import admissible, constrain, roots_outside, unconstrain
 
-__all__ = ["FastFit", "constrain", "difference", "fit_arma", "screen_specs", "unconstrain", "warm_up"]
+__all__ = [
+    "FastFit", "admissible", "constrain", "difference", "fit_arma", "roots_outside", "screen_specs",
+    "standardise", "unconstrain", "warm_up",
+]  # fmt: skip
 
 _HAVE_NUMBA = HAVE_NUMBA
 _LOG_2PI = math.log(2.0 * math.pi)
@@ -53,69 +49,6 @@ CSS_GTOL = 1e-2
 CSS_MAXITER = 50
 _KINDS = {"exact": 0, "css": 1}
 _ = _harvey_loglik_py, _harvey_loglik  # re-exported for the tests of the filter
-
-
-def constrain(x: np.ndarray) -> np.ndarray:
-    """Unconstrained reals -> coefficients of a stationary AR polynomial (Monahan 1984).
-
-    Each real maps to a partial autocorrelation in (-1, 1) by x / sqrt(1 + x^2); the
-    Durbin-Levinson recursion turns those into AR coefficients.
-    """
-    return _constrain(np.ascontiguousarray(x, dtype=float))
-
-
-def unconstrain(phi: np.ndarray) -> np.ndarray:
-    """Inverse of :func:`constrain` for a stationary AR polynomial (Levinson step-down)."""
-    n = phi.shape[0]
-    cur = phi.astype(float).copy()
-    r = np.zeros(n)
-    for k in range(n - 1, -1, -1):
-        rk = float(np.clip(cur[k], -0.9999, 0.9999))
-        r[k] = rk
-        if k:
-            prev = (cur[:k] + rk * cur[:k][::-1]) / (1.0 - rk * rk)
-            cur = prev
-    return r / np.sqrt(1.0 - r * r)
-
-
-_POWERS: dict[tuple[float, int], np.ndarray] = {}
-
-
-def _powers(limit: float, n: int) -> np.ndarray:
-    """``limit ** [1, ..., n]`` (numpy's power, computed once per limit and length)."""
-    key = (limit, n)
-    got = _POWERS.get(key)
-    if got is None:
-        got = _POWERS[key] = float(limit) ** np.arange(1, n + 1)
-    return got
-
-
-def _floats(coefs) -> np.ndarray:
-    return np.ascontiguousarray(coefs, dtype=float)
-
-
-def roots_outside(coefs, limit: float = 1.0) -> bool:
-    """Every root of 1 - sum c_i z^i has modulus above ``limit`` (Levinson step-down, no roots).
-
-    The roots of c(limit z) are those of c(z) divided by ``limit``, so the test is the
-    stationarity of the coefficients c_i limit^i: every step-down partial autocorrelation
-    strictly inside (-1, 1).
-    """
-    c = _floats(coefs)
-    return bool(_roots_ok(c, _powers(limit, c.size), 1.0))
-
-
-def admissible(ar, ma, sar, sma, m: int, limit: float) -> bool:
-    """No AR or MA root (seasonal factors included) within ``limit`` of the unit circle."""
-    ar, ma, sar, sma = _floats(ar), _floats(ma), _floats(sar), _floats(sma)
-    season = limit**m
-    return bool(
-        _admissible(
-            ar, ma, sar, sma,
-            _powers(limit, ar.size), _powers(limit, ma.size),
-            _powers(season, sar.size), _powers(season, sma.size),
-        )
-    )  # fmt: skip
 
 
 @dataclass(frozen=True)

@@ -18,7 +18,7 @@ from statsmodels.datasets import nile
 from statsmodels.tsa.arima.model import ARIMA
 
 import forecasting_core as fc
-from forecasting_core import _arima
+from forecasting_core import _arima, _filter_cache
 
 
 @pytest.fixture(scope="module")
@@ -63,6 +63,6 @@ def test_kept_results_are_per_thread_and_bounded(nile_series):
     worker.start()
     worker.join()
     assert other[0] is not mine and other[0].llf == mine.llf
-    for k in range(_arima.FILTER_CACHE_SIZE + 2):
+    for k in range(_filter_cache.FILTER_CACHE_SIZE + 2):
         _arima.filter_candidate(replace(best, params={**best.params, "ma.L1": -0.5 + 0.01 * k}))
-    assert len(_arima._FILTERED.results) == _arima.FILTER_CACHE_SIZE
+    assert len(_filter_cache._FILTERED.results) == _filter_cache.FILTER_CACHE_SIZE
