@@ -30,7 +30,20 @@ DEFAULT_BENCH: dict[str, Any] = {
     "constant": "auto",
     "origins": None,
     "horizon": 5,
+    # None: from the stationarity tests (as Intake shows them); else fixed by the user
+    "d": None,
+    "D": None,
 }
+#: Choices of the number of differences d (0 to 2) and seasonal differences D (0 or 1);
+#: None is "Automatic".
+DIFFERENCES = {"d": (0, 1, 2), "D": (0, 1)}
+#: Settings whose meaning depends on the series' frequency: when a series of another
+#: frequency is chosen they go back to these defaults (see :func:`bench_for_frequency`).
+FREQUENCY_SETTINGS = ("seasonal", "D", "horizon", "origins")
+#: The key in ``hc-selection["bench"]`` naming the frequency the settings were chosen for
+#: (written by the Model Bench's "Run"; not a setting, so :func:`bench_settings` drops it).
+FREQUENCY_KEY = "frequency"
+_PERIOD_WORDS = {"annual": ("year", "years"), "quarterly": ("quarter", "quarters"), "monthly": ("month", "months")}
 SEARCH_LABELS = {
     "auto": "Automatic (every order; stepwise with seasonal terms)",
     "exhaustive": "Every order (exhaustive)",
@@ -84,13 +97,70 @@ def bench_settings(raw: Mapping[str, Any] | None) -> dict[str, Any]:
     out["horizon"] = _int_setting("Horizon", out["horizon"], 1, 30)
     out["origins"] = _int_setting("Hindcast origins", out["origins"], 1, 40, allow_none=True)
     out["seasonal"] = bool(out["seasonal"])
+    for key, label in (("d", "Differences d"), ("D", "Seasonal differences D")):
+        value = None if out[key] == "auto" else out[key]
+        out[key] = _int_setting(label, value, 0, max(DIFFERENCES[key]), allow_none=True)
     return out
+
+
+def bench_for_frequency(
+    bench: Mapping[str, Any] | None, frequency: str | None
+) -> tuple[dict[str, Any] | None, str | None]:
+    """The session's Model Bench settings for a series of ``frequency``, and a note when changed.
+
+    Settings chosen for a series of another frequency (see :data:`FREQUENCY_KEY`) do not carry
+    over where their meaning depends on it (:data:`FREQUENCY_SETTINGS`): "no seasonal terms"
+    on annual data is no choice, and 6 years ahead are not 6 months ahead. Those go back to
+    the defaults; the other settings are kept.
+
+    Parameters
+    ----------
+    bench : Mapping, optional
+        ``hc-selection["bench"]`` as stored (None: the defaults, nothing to change).
+    frequency : {"annual", "quarterly", "monthly"}, optional
+        The chosen series' frequency (None: unknown, nothing changed).
+
+    Returns
+    -------
+    (dict or None, str or None)
+        The settings (``bench`` itself when nothing changed) and a short note saying what was
+        reset, e.g. "Horizon reset to 5 months (the default): the 6 years set for annual data
+        do not carry over to monthly data." (None when nothing was reset).
+    """
+    if not isinstance(bench, Mapping) or frequency is None:
+        return (dict(bench) if isinstance(bench, Mapping) else None), None
+    was = bench.get(FREQUENCY_KEY)
+    if was is None or was == frequency:
+        return dict(bench), None
+    out = {**bench, **{k: DEFAULT_BENCH[k] for k in FREQUENCY_SETTINGS}, FREQUENCY_KEY: frequency}
+    old_words = _PERIOD_WORDS.get(str(was), ("period", "periods"))
+    new_words = _PERIOD_WORDS.get(frequency, ("period", "periods"))
+    parts = []
+    try:
+        old_h = _int_setting("Horizon", bench.get("horizon", DEFAULT_BENCH["horizon"]), 1, 30)
+    except fc.InputError:
+        old_h = None
+    h = int(DEFAULT_BENCH["horizon"])
+    parts.append(
+        f"Horizon reset to {h} {new_words[h != 1]} (the default)"
+        + (
+            f": the {old_h} {old_words[old_h != 1]} set for {was} data do not carry over to "
+            f"{frequency} data."
+            if old_h is not None
+            else "."
+        )
+    )
+    if frequency != "annual" and (not bench.get("seasonal", True) or bench.get("D") is not None):
+        parts.append("Seasonal terms are searched again (the default for monthly and quarterly data).")
+    if bench.get("origins") is not None:
+        parts.append("Hindcast origins back to automatic.")
+    return out, " ".join(parts)
 
 
 def compare_kwargs(bench: Mapping[str, Any], transform: str) -> dict[str, Any]:
     """Keyword arguments of :func:`forecasting_core.compare_models` for these settings."""
     b = bench_settings(bench)
-    return {
+    out: dict[str, Any] = {
         "horizon": b["horizon"],
         "transform": transform if transform in TRANSFORMS else "auto",
         "search": b["search"],
@@ -101,6 +171,12 @@ def compare_kwargs(bench: Mapping[str, Any], transform: str) -> dict[str, Any]:
         "constant": {"auto": None, "on": True, "off": False}[b["constant"]],
         "hindcast_origins": b["origins"],
     }
+    # a fixed number of differences (left out when automatic, so those keys stay as they were)
+    if b["d"] is not None:
+        out["d"] = b["d"]
+    if b["D"] is not None and b["seasonal"]:
+        out["D"] = b["D"]
+    return out
 
 
 def comparison_key(sel: Mapping[str, Any]) -> tuple[str, str, str]:
@@ -114,6 +190,8 @@ def comparison_key(sel: Mapping[str, Any]) -> tuple[str, str, str]:
         # annual data has no seasonal terms either way: one cache entry, not two (the Bench
         # shows the seasonal box unticked for annual data, a new session has it ticked)
         kwargs["seasonal"] = None
+    if _frequency(sel) == "annual":
+        kwargs.pop("D", None)  # no seasonal differences in annual data
     return str(sel["dataset_id"]), str(sel["series"]), settings_json(kwargs)
 
 

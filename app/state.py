@@ -85,7 +85,9 @@ def resolve_selection(data: Mapping[str, Any] | None, store: Any | None = None) 
         upload or a sample), else the demo dataset (the wide annual landings file);
         ``series`` is a usable series of it, else its first usable series (None when it has
         none); ``transform`` is one of :data:`TRANSFORMS`. The extra key ``"is_demo"`` is
-        True when the demo was filled in.
+        True when the demo was filled in; ``"bench_note"`` says which Model Bench settings
+        went back to their defaults because the series' frequency is not the one they were
+        chosen for (None when none did).
     """
     if store is None:
         from app.store import get_store
@@ -106,16 +108,25 @@ def resolve_selection(data: Mapping[str, Any] | None, store: Any | None = None) 
         is_demo = True
     if out["transform"] not in TRANSFORMS:
         out["transform"] = "auto"
+    frequency = None
     if out["dataset_id"] is not None:
         try:
-            usable = list(store.load_table(out["dataset_id"]).series)
+            table = store.load_table(out["dataset_id"])
+            usable = list(table.series)
         except Exception:  # noqa: BLE001 - an unreadable table shows its own alert on Intake
-            usable = []
+            table, usable = None, []
         if out["series"] not in usable:
             out.update(
                 series=usable[0] if usable else None, model=None, reference=None, analysis=None
             )
+        info = table.info.get(out["series"]) if table is not None and out["series"] else None
+        frequency = info.frequency if info is not None else None
     else:
         out["series"] = None
+    # Model Bench settings made for a series of another frequency: those that depend on it
+    # go back to their defaults (app.analysis.bench_for_frequency), with a note saying so
+    from app.analysis import bench_for_frequency
+
+    out["bench"], out["bench_note"] = bench_for_frequency(out["bench"], frequency)
     out["is_demo"] = is_demo
     return out
