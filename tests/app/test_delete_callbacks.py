@@ -1,6 +1,12 @@
 """The delete-draft callbacks of the board and the home page, called as Dash would call them:
 every input a user (or a hand-made request) can get wrong gets a plain message in the page,
-nothing else changes, and a real deletion hands the board a selection naming no analysis."""
+nothing else changes, and a real deletion hands the board a selection naming no analysis.
+
+The callback modules are imported only after ``create_app`` (see the fixtures): a module with
+``dash.callback`` registrations imported earlier would leave them in Dash's process-wide list,
+where the first app to serve a request takes them, instead of with every app
+(``app._page_callbacks``).
+"""
 
 from __future__ import annotations
 
@@ -8,7 +14,7 @@ import json
 
 import pytest
 
-from app import board_delete, create_app, home_delete, saved
+from app import create_app, saved
 from app.state import update_selection
 
 CSV = b"year,cod_t\n" + b"".join(
@@ -30,6 +36,20 @@ def app(tmp_path_factory):
 @pytest.fixture
 def store(app):
     return app.server.extensions["haulcast"]["store"]
+
+
+@pytest.fixture
+def board_delete(app):
+    from app import board_delete
+
+    return board_delete
+
+
+@pytest.fixture
+def home_delete(app):
+    from app import home_delete
+
+    return home_delete
 
 
 def _saved(store, *, publish: bool = False, author: str = "Ana"):
@@ -60,7 +80,9 @@ def _text(component) -> str:
         ("published", "Ana", "published analyses are never deleted"),
     ],
 )
-def test_home_delete_answers_every_bad_request_plainly(app, store, target, name, message):
+def test_home_delete_answers_every_bad_request_plainly(
+    app, store, home_delete, target, name, message
+):
     ids = {"draft": _saved(store).id, "published": _saved(store, publish=True).id}
     target = ids.get(target, target)
     with app.server.test_request_context():
@@ -70,7 +92,7 @@ def test_home_delete_answers_every_bad_request_plainly(app, store, target, name,
     assert store.get_analysis(ids["draft"]).status == "draft"
 
 
-def test_home_delete_removes_the_draft_and_redraws_the_list(app, store):
+def test_home_delete_removes_the_draft_and_redraws_the_list(app, store, home_delete):
     draft = _saved(store)
     with app.server.test_request_context():
         style, msg, refresh = home_delete.delete(1, " ana ", draft.id, 3)
@@ -79,7 +101,7 @@ def test_home_delete_removes_the_draft_and_redraws_the_list(app, store):
     assert draft.id not in {a.id for a in store.list_analyses()}
 
 
-def test_board_delete_gives_the_board_a_selection_naming_no_analysis(app, store):
+def test_board_delete_gives_the_board_a_selection_naming_no_analysis(app, store, board_delete):
     draft = _saved(store)
     opened = {"id": draft.id, "selection": saved.selection_from_analysis(draft), "tick": 0}
     with app.server.test_request_context():
@@ -100,7 +122,7 @@ def test_board_delete_gives_the_board_a_selection_naming_no_analysis(app, store)
         ("bad", "no saved draft is open on the board"),  # a malformed id names nothing
     ],
 )
-def test_board_delete_refuses_what_is_not_a_saved_draft(app, store, which, message):
+def test_board_delete_refuses_what_is_not_a_saved_draft(app, store, board_delete, which, message):
     data = update_selection(None)
     if which == "published":
         data["analysis"] = _saved(store, publish=True).id
@@ -113,7 +135,7 @@ def test_board_delete_refuses_what_is_not_a_saved_draft(app, store, which, messa
     assert new_open is style  # no_update
 
 
-def test_the_confirm_question_names_the_draft_and_its_author(store):
+def test_the_confirm_question_names_the_draft_and_its_author(store, board_delete):
     draft = _saved(store)
     text = board_delete.question(draft)
     assert text.startswith("Delete version 1 of \u201cCod <b>draft</b>\u201d (a draft saved by Ana")
