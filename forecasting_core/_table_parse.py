@@ -139,8 +139,15 @@ def decode(data: bytes) -> tuple[str, list[Problem]]:
 
 
 def sniff_delimiter(text: str) -> str:
-    """Pick the delimiter (tab, semicolon, comma or bar) that splits the lines most consistently."""
-    lines = [line for line in text.splitlines()[:200] if line.strip()][:60]
+    """Pick the delimiter (tab, semicolon, comma or bar) that splits the lines most consistently.
+
+    Lines starting with ``#`` (comment lines) are left out of the count.
+    """
+    lines = [
+        line
+        for line in text.splitlines()[:200]
+        if line.strip() and not line.lstrip(" ").startswith("#")  # comment lines do not count
+    ][:60]
     best: tuple[float, int, int] = (-1.0, 0, 0)
     choice = ","
     for pref, delim in enumerate(("\t", ";", ",", "|")):

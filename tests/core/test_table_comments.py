@@ -14,6 +14,8 @@ import re
 import numpy as np
 import pandas as pd
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from forecasting_core._cli_writers import write_forecast_csv
 from forecasting_core._results import InputError
@@ -150,3 +152,33 @@ def test_haulcasts_own_forecast_csv_reads_back_with_its_comment_lines_named(tmp_
     table = read_table(path)
     first = table.problems[0]
     assert first.row == 1 and "rows 1-3 above the header (row 4) start with '#'" in first.message
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    where=st.lists(st.integers(min_value=0, max_value=len(YEARS) + 1), max_size=4),
+    note=st.text(alphabet=st.sampled_from(list("ab #,;:-")), max_size=12),
+)
+def test_comment_lines_anywhere_leave_the_values_as_without_them(where, note):
+    plain = wide("year,hake,cod")
+    lines = plain.splitlines()
+    for k in sorted(where, reverse=True):
+        lines.insert(k, "#" + note)
+    with_comments = read_table(("\n".join(lines) + "\n").encode(), name="c.csv")
+    without = read_table(plain.encode(), name="p.csv")
+    assert list(with_comments.series) == list(without.series) == ["hake", "cod"]
+    for name in ("hake", "cod"):
+        pd.testing.assert_series_equal(with_comments.series[name], without.series[name])
+    assert not with_comments.errors
+
+
+@pytest.mark.parametrize(
+    ("comments", "sep"),
+    [
+        ("# a; b; c; d; e\n" * 40, ","),  # a long notes block, split evenly by ';'
+        ("# a, b, c, d, e\n" * 40, ";"),
+    ],
+)
+def test_comment_lines_do_not_decide_the_delimiter(comments, sep):
+    table = read_table((comments + wide(sep.join(["year", "hake", "cod"]), sep=sep)).encode())
+    assert list(table.series) == ["hake", "cod"]
