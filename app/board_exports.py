@@ -100,6 +100,8 @@ def download_html(
         analysis=export_analysis(state),
         record=past.record if past is not None else None,
         record_analyses=[a.to_dict() for a in past.analyses] if past is not None else (),
+        record_scored_on=past.scored_on if past is not None else "",
+        record_newer=past.newer if past is not None else False,
     )
     name = f"{safe_name(forecast.series_name)}_report.html"
     return [dcc.send_string(page, name, type="text/html"), None]
@@ -117,4 +119,6 @@ def _record(sel: Mapping[str, Any]) -> RecordData | None:
     """The board's forecast record for the report (None when the board shows none)."""
     from app.store import get_store
 
-    return record_data(get_store(), sel["dataset_id"], sel["series"])
+    return record_data(
+        get_store(), sel["dataset_id"], sel["series"], extra=sel.get("uploads") or ()
+    )

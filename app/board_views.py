@@ -88,6 +88,12 @@ def figures_memo(
     ]
 
 
+def variance_label(spec: fc.TransformSpec) -> str:
+    """The innovation variance's heading, naming the scale the model was fitted on."""
+    scale = {"none": "original", "log": "log", "boxcox": "Box-Cox"}.get(spec.name, spec.name)
+    return f"Innovation variance ({scale} scale)"
+
+
 def details(state: Mapping[str, Any]) -> list[Any]:
     c: fc.Candidate = state["candidate"]
     comparison: fc.Comparison = state["comparison"]
@@ -100,7 +106,7 @@ def details(state: Mapping[str, Any]) -> list[Any]:
             "v": spec.name + (f" (lambda {spec.lam:.3f})" if spec.lam is not None else ""),
         },
         {"k": "AICc", "v": fmt_number(c.aicc, 6)},
-        {"k": "Innovation variance (transformed scale)", "v": fmt_number(c.sigma2, 4)},
+        {"k": variance_label(spec), "v": fmt_number(c.sigma2, 4)},
         {
             "k": "Coefficients",
             "v": ", ".join(f"{k} {v:.4g}" for k, v in c.params.items() if k != "sigma2") or "none",

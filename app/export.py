@@ -34,7 +34,7 @@ from app.report_parts import (
     table_html,
     when,
 )
-from app.wording import forecast_summary, hindcast_sentence, residual_report
+from app.wording import forecast_summary, hindcast_sentence, residual_report, specific_notes
 from forecasting_core import CAUTIONS, Comparison, Forecast, ForecastRecord, time_label
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -178,7 +178,9 @@ def forecast_csv(
 
     The header lines start with ``#`` (``pandas.read_csv(..., comment="#")`` skips them):
     what produced the forecast, the saved analysis and its sign-offs when ``analysis`` is
-    given (see :func:`analysis_lines`), then every caution. Then one row per step: ``time, step,
+    given (see :func:`analysis_lines`), then every caution: the general ones, then those the
+    board shows for this forecast (:func:`app.wording.specific_notes`: ``hindcast:``,
+    ``caution:``, ``residuals:``, ``warning:`` lines). Then one row per step: ``time, step,
     mean, median, lo{level}, hi{level}, ..., prob_below_reference`` (probability 0..1, empty
     without a reference level). Every cell goes through :func:`neutralise_cell`.
 
@@ -196,6 +198,8 @@ def forecast_csv(
     if analysis is not None:
         header += analysis_lines(analysis)
     header += [f"caution: {c}" for c in (forecast.cautions or CAUTIONS)]
+    # the board's own cautions for this forecast (hindcast, bands, residuals, data warnings)
+    header += [f"{kind}: {text}" for kind, text in specific_notes(forecast, comparison)]
     for line in header:
         buf.write(_comment_line(line) + "\r\n")
     writer = csv.writer(buf)
@@ -244,6 +248,8 @@ def report_html(
     analysis: Mapping[str, Any] | None = None,
     record: ForecastRecord | None = None,
     record_analyses: Sequence[Mapping[str, Any]] = (),
+    record_scored_on: str = "",
+    record_newer: bool = False,
 ) -> str:
     """A standalone HTML report that opens offline.
 
@@ -268,6 +274,10 @@ def report_html(
         table (see :func:`app.record_report.record_html`).
     record_analyses : sequence of Mapping, optional
         ``Analysis.to_dict()`` of the analyses behind ``record.forecasts`` (same order).
+    record_scored_on : str, optional
+        The dataset the record was scored against (``RecordData.scored_on``).
+    record_newer : bool, optional
+        Whether that dataset has newer values than the forecast's.
 
     Returns
     -------
@@ -310,7 +320,9 @@ def report_html(
     parts.append("<h2>Forecast table</h2>")
     parts.append(table_html(forecast_frame(forecast), left_cols=("period",)))
     if record is not None:
-        parts.append(record_html(record, record_analyses))
+        parts.append(
+            record_html(record, record_analyses, scored_on=record_scored_on, newer=record_newer)
+        )
     if comparison is not None:
         skill = skill_frame(comparison, forecast.model)
         if skill is not None:

@@ -146,7 +146,7 @@ def summary_view(table: fc.Table) -> html.Div:
             stat_card(
                 "Errors",
                 str(n_err),
-                "series cannot be used" if n_err else "none",
+                error_hint(n_err, total - usable),
                 tone="error" if n_err else "good",
             ),
             stat_card(
@@ -196,6 +196,15 @@ def series_table_view(table: fc.Table) -> Any:
     )
 
 
+def error_hint(n_err: int, unusable: int) -> str:
+    """The Errors card's hint: how many series the errors stop (not how many errors there are)."""
+    if not n_err:
+        return "none"
+    if not unusable:
+        return "no series stopped"
+    return f"{unusable} series cannot be used"
+
+
 def transform_note(choice: str, spec: fc.TransformSpec) -> list[Any]:
     lam = f" (\u03bb = {spec.lam:.3f})" if spec.name == "boxcox" and spec.lam is not None else ""
     lead = "Automatic chose " if choice == "auto" else "Using "
@@ -209,6 +218,8 @@ def transform_note(choice: str, spec: fc.TransformSpec) -> list[Any]:
         flags=re.IGNORECASE,
     )
     reason = re.sub(r"^\s*chosen by the user\s*;?\s*", "", reason, flags=re.IGNORECASE)
+    # "because X, so Y" reads as a sentence once "because" goes ("X, so Y.")
+    reason = re.sub(r"^\s*because\s+(?=.*,\s*so\s)", "", reason, flags=re.IGNORECASE)
     if reason:
         parts.append(" " + reason[0].upper() + reason[1:].rstrip(".") + ".")
     return parts

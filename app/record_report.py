@@ -128,7 +128,29 @@ def _source_line(analysis: Mapping[str, Any], past: fc.PastForecastScore) -> str
     return text + (f"; {signed}" if signed else "") + "."
 
 
-def record_html(record: fc.ForecastRecord, analyses: Sequence[Mapping[str, Any]] = ()) -> str:
+def record_lead(record: fc.ForecastRecord, scored_on: str = "", newer: bool = False) -> str:
+    """The panel's lead: which forecasts are scored, and against which data."""
+    if newer and scored_on:
+        return (
+            f"Forecasts published for {record.series_name} from data that ended before "
+            f"{record.last_observed}, scored against the newest data on the server for this "
+            f"series: {scored_on}, not the dataset on this board."
+        )
+    where = f" ({scored_on})" if scored_on else ""
+    return (
+        f"Forecasts published earlier for {record.series_name}, made from data that ended "
+        f"before this dataset's last value ({record.last_observed}), against what was "
+        f"then observed here{where}."
+    )
+
+
+def record_html(
+    record: fc.ForecastRecord,
+    analyses: Sequence[Mapping[str, Any]] = (),
+    *,
+    scored_on: str = "",
+    newer: bool = False,
+) -> str:
     """The "How past forecasts did" section of the HTML report.
 
     Parameters
@@ -138,6 +160,10 @@ def record_html(record: fc.ForecastRecord, analyses: Sequence[Mapping[str, Any]]
     analyses : sequence of Mapping, optional
         ``Analysis.to_dict()`` of the published analyses behind ``record.forecasts`` (same
         order), for who published and signed off each.
+    scored_on : str, optional
+        The dataset scored against (``RecordData.scored_on``), named in the lead.
+    newer : bool, optional
+        Whether that dataset has newer values than the one the report is made from.
 
     Returns
     -------
@@ -150,9 +176,7 @@ def record_html(record: fc.ForecastRecord, analyses: Sequence[Mapping[str, Any]]
     parts = [
         "<section class='record'>",
         "<h2>How past forecasts did</h2>",
-        f"<p class='sub'>Forecasts published earlier for {e(record.series_name)}, made from data "
-        f"that ended before this dataset's last value ({e(record.last_observed)}), against what "
-        "was then observed.</p>",
+        f"<p class='sub'>{e(record_lead(record, scored_on, newer))}</p>",
         f"<p class='headline'>{e(record.headline())}</p>",
     ]
     if record.caveat:

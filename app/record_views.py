@@ -26,7 +26,7 @@ from dash import dcc, html
 
 import forecasting_core as fc
 from app.record_figures import record_figure
-from app.record_report import columns, table_rows
+from app.record_report import columns, record_lead, table_rows
 from app.ui import alert, html_table, section, stat_card, stat_row
 from app.wording import RECORD_FOOTNOTE, mase_words
 
@@ -252,6 +252,8 @@ def record_panel(
     *,
     analyses: Sequence[Any] = (),
     y_title: str | None = None,
+    scored_on: str = "",
+    newer: bool = False,
 ) -> html.Section:
     """The panel for a scored record (no store needed: tests and reports call it directly).
 
@@ -265,6 +267,10 @@ def record_panel(
         authors and sign-offs.
     y_title : str, optional
         Value axis title.
+    scored_on : str, optional
+        The dataset scored against, named in the lead (see :class:`RecordData`).
+    newer : bool, optional
+        Whether that dataset has newer values than the one on the board.
     """
     children: list[Any] = [html.P(record.headline(), className="record-headline")]
     if record.caveat:
@@ -307,13 +313,55 @@ def record_panel(
         "How past forecasts did",
         *children,
         id=SECTION_ID,
-        lead=(
-            f"Forecasts published earlier for {record.series_name}, made from data that ended "
-            f"before this dataset's last value ({record.last_observed}), against what was "
-            "then observed here."
-        ),
+        lead=record_lead(record, scored_on, newer),
         className="record-section",
     )
+
+
+def _last(y: pd.Series | None) -> pd.Period | None:
+    observed = y[y.notna()] if y is not None else None
+    return observed.index.max() if observed is not None and len(observed) else None
+
+
+def newest_data(
+    store: Any, dataset_id: str, series: str, y: pd.Series, extra: Iterable[str] = ()
+) -> tuple[str, pd.Series] | None:
+    """The dataset on the server with the newest values of ``series``, when newer than ``y``.
+
+    Looked at: the sample datasets, the datasets of published analyses of ``series`` (shared
+    by their links) and ``extra`` (e.g. the session's uploads). Only a series of the same name
+    and frequency whose last observed period is after ``y``'s counts; the latest wins (the
+    first found of equal ones).
+
+    Returns
+    -------
+    tuple of (str, pandas.Series) or None
+        The dataset id and its series; None when no dataset has newer values.
+    """
+    frequency = fc.frequency_of(y)
+    best, top = None, _last(y)
+    if top is None:
+        return None
+    ids: list[str] = list(store.samples()) if hasattr(store, "samples") else []
+    if hasattr(store, "list_analyses"):
+        try:
+            ids += [a.dataset_id for a in store.list_analyses(status="published", series=series)]
+        except fc.InputError:
+            pass
+    ids += list(extra)
+    for other in dict.fromkeys(ids):
+        if other == dataset_id or not store.exists(other):
+            continue
+        try:
+            candidate = store.load_table(other).series.get(series)
+        except Exception:  # noqa: BLE001 - an unreadable dataset is simply not newer data
+            continue
+        if candidate is None or fc.frequency_of(candidate) != frequency:
+            continue
+        last = _last(candidate)
+        if last is not None and last > top:
+            best, top = (other, candidate), last
+    return best
 
 
 @dataclass(frozen=True)
@@ -329,16 +377,30 @@ class RecordData:
         The published analyses behind ``record.forecasts`` (same order).
     y_title : str
         Value axis title (series and unit).
+    scored_on : str
+        Where the values scored come from: the dataset's file name and its last period,
+        e.g. ``"landings.csv (data to 2025)"``.
+    newer : bool
+        Whether that is another dataset with newer values than the one on the board.
     """
 
     record: fc.ForecastRecord
     history: pd.Series
     analyses: tuple[Any, ...]
     y_title: str
+    scored_on: str = ""
+    newer: bool = False
 
 
-def record_data(store: Any, dataset_id: str, series: str) -> RecordData | None:
+def record_data(
+    store: Any, dataset_id: str, series: str, *, extra: Iterable[str] = ()
+) -> RecordData | None:
     """The scored record of past published forecasts of ``series``, or None when there is none.
+
+    The forecasts are scored against the newest values of ``series`` on the server
+    (:func:`newest_data`; ``extra`` adds datasets to look at, e.g. the session's uploads), or
+    against this dataset's when none is newer. So a forecast opened by its link shows how it
+    did as soon as newer data are on the server.
 
     Parameters
     ----------
@@ -362,7 +424,11 @@ def record_data(store: Any, dataset_id: str, series: str) -> RecordData | None:
     y = table.series.get(series)
     if y is None:
         return None
-    analyses = past_analyses(store, dataset_id, series, y)
+    newer = newest_data(store, dataset_id, series, y, extra)
+    scored_id = dataset_id
+    if newer is not None:
+        scored_id, y = newer
+    analyses = past_analyses(store, scored_id, series, y)
     if not analyses:
         return None
     histories = [_history(store, a) for a in analyses]
@@ -372,15 +438,29 @@ def record_data(store: Any, dataset_id: str, series: str) -> RecordData | None:
     info = table.info.get(series)
     unit = getattr(info, "unit", None)
     y_title = f"{series} ({unit})" if unit and not series.endswith(f"({unit})") else series
-    return RecordData(record, y, tuple(used), y_title)
+    try:
+        name = store.meta(scored_id).filename
+    except (fc.InputError, AttributeError):
+        name = "this dataset"
+    scored_on = f"{name} (data to {fc.time_label(_last(y))})"
+    return RecordData(record, y, tuple(used), y_title, scored_on, newer is not None)
 
 
-def record_section(store: Any, dataset_id: str, series: str) -> html.Section | None:
+def record_section(
+    store: Any, dataset_id: str, series: str, *, extra: Iterable[str] = ()
+) -> html.Section | None:
     """The forecast-record panel for the board, or None when there is nothing to show.
 
     The arguments are those of :func:`record_data`.
     """
-    data = record_data(store, dataset_id, series)
+    data = record_data(store, dataset_id, series, extra=extra)
     if data is None:
         return None
-    return record_panel(data.record, data.history, analyses=data.analyses, y_title=data.y_title)
+    return record_panel(
+        data.record,
+        data.history,
+        analyses=data.analyses,
+        y_title=data.y_title,
+        scored_on=data.scored_on,
+        newer=data.newer,
+    )

@@ -77,24 +77,105 @@ def hindcast_sentence(comparison: Comparison | None, model: str) -> str:
         mine, naive = pair
         n = mine.origins
     if naive is None or math.isnan(naive.mase) or math.isnan(mine.mase) or not naive.mase:
-        return (
-            f"Replayed from {n} past origins, its forecasts missed by {mine.mae:,.3g} on average."
-        )
+        text = f"Replayed from {n} past origins, its forecasts missed by {mine.mae:,.3g} on average."
+        better = benchmark_sentence(comparison, model)
+        return f"{text} {better}" if better else text
     # MASE ratio: the same measure as the hindcast verdict on the Model Bench
     change = 1.0 - mine.mase / naive.mase
     period = {"quarterly": "quarter", "monthly": "month"}.get(comparison.frequency, "year")
     years = f"each of the last {n} {period}s" if n != 1 else f"the last {period}"
     if abs(change) < 0.02:
-        return f"Replayed from {years}, it did about as well as simply repeating the last observed value."
-    if change > 0:
-        return (
+        text = f"Replayed from {years}, it did about as well as simply repeating the last observed value."
+    elif change > 0:
+        text = (
             f"Replayed from {years}, its errors were {100 * change:.0f}% smaller than simply "
             "repeating the last observed value."
         )
+    else:
+        text = (
+            f"Replayed from {years}, its errors were {100 * -change:.0f}% larger than simply "
+            "repeating the last observed value, so treat it with care."
+        )
+    better = benchmark_sentence(comparison, model)
+    return f"{text} {better}" if better else text
+
+
+def better_benchmarks(comparison: Comparison | None, model: str) -> list[tuple[str, float, float]]:
+    """Benchmarks other than the last value with a lower hindcast MASE than ``model``.
+
+    Each is compared with ``model`` on the forecasts both made (``Hindcast.versus``; its own
+    scores when the hindcast has no pairs). A benchmark counts when its MASE is lower to the
+    two decimals shown, the rule of the command line's warning.
+
+    Returns
+    -------
+    list of (str, float, float)
+        ``(benchmark label, its MASE, model's MASE)``, the best benchmark first.
+    """
+    hc = comparison.hindcast if comparison is not None else None
+    if hc is None or hc.score(model) is None:
+        return []
+    out = []
+    for s in hc.scores:
+        if s.kind != "benchmark" or s.model in (LAST_VALUE, model):
+            continue
+        pair = hc.versus(s.model, model)
+        mine, theirs = pair if pair is not None and pair[0].forecasts else (hc.score(model), s)
+        a, b = float(theirs.mase), float(mine.mase)
+        if math.isfinite(a) and math.isfinite(b) and round(a, 2) < round(b, 2):
+            out.append((s.model, a, b))
+    return sorted(out, key=lambda t: t[1])
+
+
+def benchmark_sentence(comparison: Comparison | None, model: str) -> str:
+    """The plain warning when a benchmark did better than ``model`` on the hindcast, else ``""``.
+
+    E.g. "But on the same past forecasts the long-run mean benchmark did better: its errors
+    were 5% smaller (MASE 0.93 vs 0.98), so consider it." (MASE ratio, as the verdict.)
+    """
+    found = better_benchmarks(comparison, model)
+    if not found:
+        return ""
+    parts = [
+        f"the {label} benchmark (errors {100 * (1 - a / b):.0f}% smaller, MASE {a:.2f} vs "
+        f"{b:.2f})"
+        for label, a, b in found
+    ]
+    if len(parts) == 1:
+        return (
+            f"But on the same past forecasts {parts[0]} did better than this model, so weigh "
+            "it before relying on the model."
+        )
+    listed = ", ".join(parts[:-1]) + " and " + parts[-1]
     return (
-        f"Replayed from {years}, its errors were {100 * -change:.0f}% larger than simply "
-        "repeating the last observed value, so treat it with care."
+        f"But on the same past forecasts {len(parts)} benchmarks did better than this model: "
+        f"{listed}; weigh them before relying on the model."
     )
+
+
+def reference_sentence(probs: list[float], times: list[str], ref: str) -> str:
+    """The chance below the reference level: first and last period, and the highest-risk one.
+
+    Parameters
+    ----------
+    probs : list of float
+        Chance (0..1) of falling below the reference level, one per period ahead.
+    times : list of str
+        The periods' labels (same order).
+    ref : str
+        The reference level as written (value and unit).
+    """
+    text = (
+        f"The chance of falling below the reference level of {ref} is {fmt_chance(probs[0])} "
+        f"in {times[0]}"
+    )
+    if len(probs) > 1:
+        top = max(range(len(probs)), key=lambda i: probs[i])  # the first of equal highs
+        said = {fmt_chance(probs[0]), fmt_chance(probs[-1])}
+        if 0 < top < len(probs) - 1 and fmt_chance(probs[top]) not in said:
+            text += f", highest in {times[top]} ({fmt_chance(probs[top])}),"
+        text += f" and {fmt_chance(probs[-1])} by {times[-1]}"
+    return text + "."
 
 
 def forecast_summary(
@@ -146,10 +227,7 @@ def forecast_summary(
     if forecast.reference is not None:
         probs = [float(p) for p in table["prob_below_reference"]]
         ref = fmt_value(float(forecast.reference), unit)
-        text = f"The chance of falling below the reference level of {ref} is {fmt_chance(probs[0])} in {t1}"
-        if len(probs) > 1:
-            text += f" and {fmt_chance(probs[-1])} by {table.iloc[-1]['time']}"
-        out.append(text + ".")
+        out.append(reference_sentence(probs, [str(t) for t in table["time"]], ref))
     out.append(
         f"The forecast comes from {forecast.model}. {hindcast_sentence(comparison, forecast.model)}"
     )
@@ -218,3 +296,42 @@ def mase_words(mase: float, frequency: str) -> str:
         return f"errors about as large as the typical {change}"
     times = f"{m:.2f}" if m < 1 else f"{m:.1f}" if m < 10 else f"{m:.0f}"
     return f"errors {times} times the typical {change}"
+
+
+def specific_notes(forecast: Forecast, comparison: Comparison | None) -> list[tuple[str, str]]:
+    """The cautions the Forecast Board shows for this forecast, beyond the general ones.
+
+    For exports that must carry what the board says (the CSV's ``#`` lines): how the model did
+    on the hindcast (with any benchmark that did better), the "bands too narrow" caution, the
+    residual checks and every warning of the forecast and the comparison (data gaps, an
+    implausible reference level, ...).
+
+    Parameters
+    ----------
+    forecast : Forecast
+    comparison : Comparison, optional
+        The comparison the model came from.
+
+    Returns
+    -------
+    list of (str, str)
+        ``(kind, text)`` with kind ``"hindcast"``, ``"caution"``, ``"residuals"`` or
+        ``"warning"``, in the order the board shows them.
+    """
+    out: list[tuple[str, str]] = []
+    model = forecast.model
+    if comparison is not None:
+        if comparison.hindcast is not None:
+            out.append(("hindcast", f"{model}: {hindcast_sentence(comparison, model)}"))
+        caution = band_caution(comparison, model)
+        if caution:
+            out.append(("caution", caution))
+        diag = residual_report(comparison, model)
+        if diag is not None and diag.verdict:
+            out.append(("residuals", f"{diag.model}: {diag.verdict}"))
+    seen: set[str] = set()
+    for w in (*forecast.warnings, *(comparison.warnings if comparison is not None else ())):
+        if w not in seen:
+            seen.add(w)
+            out.append(("warning", w))
+    return out

@@ -71,7 +71,10 @@ def _record(sel: Mapping[str, Any]) -> Any:
 
     if not sel.get("dataset_id") or not sel.get("series"):
         return None
-    return record_section(get_store(), sel["dataset_id"], sel["series"])
+    # scored against the newest values of the series on the server (the session's uploads too)
+    return record_section(
+        get_store(), sel["dataset_id"], sel["series"], extra=sel.get("uploads") or ()
+    )
 
 
 def layout(present: str | None = None, analysis: str | None = None, **_query: Any) -> html.Div:

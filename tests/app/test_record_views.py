@@ -168,13 +168,43 @@ def test_no_section_without_a_past_forecast(store, vintages):
     assert record_section(store, new, "cod_t") is None  # drafts are not a record
 
 
-def test_own_dataset_and_later_data_are_left_out(store, vintages):
+def test_own_dataset_and_later_data_are_left_out(store, vintages, tmp_path):
     old, new = vintages
     _publish(store, new)  # made on this very dataset
     assert record_section(store, new, "cod_t") is None
-    # on the older dataset (data to 2015), a forecast from data to 2015 is not earlier
+    # on the older dataset (data to 2015) with nothing newer on the server, a forecast from
+    # data to 2015 is not earlier than this dataset's data
+    only_old = DatasetStore(tmp_path / "other")
+    old2 = only_old.save(OLD_CSV.encode(), "cod_2015.csv")
+    _publish(only_old, old2)
+    assert record_section(only_old, old2, "cod_t") is None
+
+
+def test_a_forecast_opened_on_older_data_is_scored_against_the_newest_on_the_server(
+    store, vintages
+):
+    old, new = vintages
+    # the newer dataset is known to the server through a published analysis made on it
+    _publish(store, new, title="Cod from data to 2018", forecast=_forecast())
+    analysis = _publish(store, old)
+    section = record_section(store, old, "cod_t")  # the board of the link, data to 2015
+    assert section is not None
+    text = _text(section)
+    # the same hand-worked numbers as on the newer dataset's own board (see above)
+    assert "Of 3 past forecast years, 2 fell inside the 80% band (80% expected)" in text
+    assert "MASE 1.64" in text
+    # and it says which data it is scored against
+    assert "newest data on the server for this series: cod_2018.csv (data to 2018)" in text
+    assert f"/board?analysis={analysis.id}" in json.dumps(section.to_plotly_json(), default=str)
+
+
+def test_the_session_uploads_count_as_newer_data(store, vintages):
+    old, new = vintages
     _publish(store, old)
+    # no published analysis and no sample names the newer file: only the session's uploads do
     assert record_section(store, old, "cod_t") is None
+    section = record_section(store, old, "cod_t", extra=[new])
+    assert section is not None and "cod_2018.csv (data to 2018)" in _text(section)
 
 
 def test_other_series_and_unknown_inputs_give_none(store, vintages):
