@@ -12,6 +12,7 @@ from collections import Counter, defaultdict
 import pandas as pd
 
 from forecasting_core._results import Problem, SeriesInfo, Table
+from forecasting_core._table_mixed import mixed_frequency_problems
 from forecasting_core._table_parse import (
     KNOWN_UNITS,
     cell_text,
@@ -149,6 +150,7 @@ class RowsMixin:
         lost.update(self.mixed)
         if not freq:
             return self.table("wide", {}, {})
+        n_main = sum(1 for row, k, _, _ in parsed if k == self.main_kind)
         decimal = self.decimal
         rows_ok = [
             (row, ordinals[row], cells, {j: parse_number(cells[j], decimal) for j in value_cols})
@@ -157,8 +159,35 @@ class RowsMixin:
         ]
         long = self._long_roles(names, value_cols, tcol, rows_ok)
         if long is not None:
+            keys = long[0]
+            cells_by_row = dict(data)
+            owner = {
+                r: " ".join(
+                    cell_text(cells_by_row[r][j]) for j in keys if not is_empty(cells_by_row[r][j])
+                ).strip()
+                for r in self.mixed_rows
+            }
+            named = {
+                " ".join(cell_text(c[j]) for j in keys if not is_empty(c[j])).strip()
+                for _, _, c, _ in rows_ok
+            }
+            self._mixed_notes(tname, n_main, owner, named)
             return self._build_long(names, long, freq, rows_ok, data, lost, tname)
+        self._mixed_notes(tname, n_main)
         return self._build_wide(names, value_cols, freq, rows_ok, data, lost, units_row)
+
+    def _mixed_notes(
+        self,
+        tname: str,
+        n_main: int,
+        owner: dict[int, str] | None = None,
+        named: set[str] | None = None,
+    ) -> None:
+        """Report rows of another frequency than most rows (see :func:`mixed_frequency_problems`)."""
+        for p in mixed_frequency_problems(
+            self.mixed_rows, self.main_kind, n_main, tname, owner, named
+        ):
+            self.file_problems.append(p)
 
     def _frequency(self, parsed, tname) -> tuple[str, dict[int, int]]:
         self.mixed: dict[int, str] = {}
@@ -173,14 +202,9 @@ class RowsMixin:
         main = kinds.most_common(1)[0][0]
         odd = [(row, k, cells) for row, k, _, cells in parsed if k != main]
         names = {"Y": "a year", "Q": "a quarter", "M": "a month", "D": "a date"}
-        for row, k, cells in odd[:10]:
-            self.note(
-                "error",
-                f"row {row}: the time {short(cell_text(cells[self.tcol]))!r} is {names[k]} but most rows have {names[main]}; "
-                "one file holds one frequency. The row's values were not used.",
-                row=row,
-                column=tname,
-            )
+        # Reported by _mixed_notes once the layout is known (one problem per series or file).
+        self.mixed_rows = {row: (k, short(cell_text(cells[self.tcol]))) for row, k, cells in odd}
+        self.main_kind = main
         self.mixed = {
             row: f"its time {short(cell_text(cells[self.tcol]))!r} is {names[k]} while most rows have {names[main]}"
             for row, k, cells in odd
@@ -279,7 +303,12 @@ class RowsMixin:
                     Problem(
                         "error",
                         f"{rows_text(rows)} {'has a value' if len(rows) == 1 else 'have values'} for this series "
-                        f"that could not be used ({lost[rows[0]]}); correct {'that row' if len(rows) == 1 else 'those rows'} so no value is lost.",
+                        f"that could not be used ({lost[rows[0]]}); "
+                        + (
+                            "one file holds one frequency: split the file by frequency and load each part."
+                            if rows[0] in self.mixed
+                            else f"correct {'that row' if len(rows) == 1 else 'those rows'} so no value is lost."
+                        ),
                         row=rows[0],
                         column=name,
                     )
