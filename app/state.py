@@ -61,11 +61,18 @@ def update_selection(data: Mapping[str, Any] | None, **changes: Any) -> dict[str
     if "series" in changes and changes["series"] != out["series"]:
         out.update(model=None, reference=None, analysis=None)
     if ("transform" in changes and changes["transform"] != out["transform"]) or (
-        "bench" in changes and changes["bench"] != out["bench"]
+        "bench" in changes and _settings_only(changes["bench"]) != _settings_only(out["bench"])
     ):
         out.update(model=None)
     out.update(changes)
     return out
+
+
+def _settings_only(bench: Any) -> Any:
+    # the bench settings without the frequency they were run for (a note, not a setting)
+    if isinstance(bench, Mapping):
+        return {k: v for k, v in bench.items() if k != "frequency"}
+    return bench
 
 
 def resolve_selection(data: Mapping[str, Any] | None, store: Any | None = None) -> dict[str, Any]:
