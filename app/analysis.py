@@ -190,8 +190,8 @@ def comparison_key(sel: Mapping[str, Any]) -> tuple[str, str, str]:
         # annual data has no seasonal terms either way: one cache entry, not two (the Bench
         # shows the seasonal box unticked for annual data, a new session has it ticked)
         kwargs["seasonal"] = None
-    if _frequency(sel) == "annual":
-        kwargs.pop("D", None)  # no seasonal differences in annual data
+    if "D" in kwargs and _frequency(sel) == "annual":
+        del kwargs["D"]  # no seasonal differences in annual data
     return str(sel["dataset_id"]), str(sel["series"]), settings_json(kwargs)
 
 
