@@ -17,6 +17,7 @@ from app.cache import (
     get_comparison,
     get_residuals,
     parse_settings,
+    remembered,
     settings_json,
     split_settings,
 )
@@ -42,8 +43,9 @@ def panels(dataset_id: str, series: str, settings: str, label: str) -> dict[str,
     """
     style = f"{fc.__version__}+{figures.STYLE}"
     search, _hind = split_settings(parse_settings(settings))
-    hindcast = _hindcast_panels(dataset_id, series, settings, label, style)
-    residuals = _residual_panels(dataset_id, series, settings_json(search), label, style)
+    # within app.cache.cached_only(): look-ups only (NotCached when not drawn yet)
+    hindcast = remembered(_hindcast_panels, dataset_id, series, settings, label, style)
+    residuals = remembered(_residual_panels, dataset_id, series, settings_json(search), label, style)
     return {
         "figures": [*hindcast["figures"], *residuals["figures"]],
         "verdict": residuals["verdict"],

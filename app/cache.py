@@ -25,6 +25,7 @@ Configuration (keys of ``create_app(config)``):
 
 from __future__ import annotations
 
+import contextvars
 import json
 import threading
 from collections.abc import Callable, Iterator, Mapping, Sequence
@@ -275,7 +276,55 @@ def get_residuals(dataset_id: str, series: str, settings_json: str, label: str) 
     return _layer(_residuals_layer, dataset_id, series, _json(search), label)
 
 
+class NotCached(LookupError):
+    """Raised inside :func:`cached_only` when a result is not in the cache yet."""
+
+
+#: Inside cached_only(): the results looked up so far in that block (each is read once).
+_ONLY_CACHED: contextvars.ContextVar[dict[tuple[Any, ...], Any] | None] = contextvars.ContextVar(
+    "only_cached", default=None
+)
+
+
+@contextmanager
+def cached_only() -> Iterator[None]:
+    """Within this block the memoized results are looked up, never computed.
+
+    A result that is not in the cache raises :class:`NotCached` instead of running the
+    core, so a page can build its first answer into its layout when (and only when) it is
+    already known, and leave the rest to its callbacks::
+
+        with cached_only():
+            try:
+                comparison = get_comparison(dataset_id, series, settings)
+            except NotCached:
+                comparison = None
+    """
+    token = _ONLY_CACHED.set({})
+    try:
+        yield
+    finally:
+        _ONLY_CACHED.reset(token)
+
+
+def remembered(function: Callable[..., Any], *args: Any) -> Any:
+    """``function(*args)`` of a ``cache.memoize``-d function; only a cache look-up inside
+    :func:`cached_only` (raising :class:`NotCached` on a miss)."""
+    seen = _ONLY_CACHED.get()
+    if seen is None:
+        return function(*args)
+    key = (function.__qualname__, *args)
+    if key not in seen:
+        value = cache.get(function.make_cache_key(function.uncached, *args))
+        if value is None:  # nothing memoized here returns None
+            raise NotCached(function.__name__)
+        seen[key] = value
+    return seen[key]
+
+
 def _layer(function: Callable[..., Any], *args: Any) -> Any:
+    if _ONLY_CACHED.get() is not None:
+        return remembered(function, *args, fc.__version__)
     with _single_flight((function.__name__, *args)):
         return function(*args, fc.__version__)
 
