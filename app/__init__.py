@@ -39,7 +39,7 @@ from pathlib import Path
 from typing import Any
 
 import dash
-from dash import Input, Output, dcc, html
+from dash import Input, Output, State, dash_table, dcc, html
 from dash import _callback as _dash_callback
 from flask import Flask
 
@@ -83,11 +83,31 @@ _INDEX = """<!DOCTYPE html>
         <footer>
             {%config%}
             {%scripts%}
+            <!--chunks-->
             {%renderer%}
         </footer>
     </body>
 </html>
 """
+
+
+#: Script chunks Dash would fetch only once a page's layout is in and shows a table or a
+#: dropdown (paths under the component suites). The page loads them with its other scripts
+#: (as Dash's ``eager_loading`` does, but without plotly.js, which only the charts need), so
+#: the browser compiles them while it waits for the layout and a table draws without waiting.
+EAGER_CHUNKS: tuple[str, ...] = (
+    "dash/dash_table/async-highlight.js",
+    "dash/dash_table/async-table.js",
+    "dash/dcc/async-dropdown.js",
+)
+
+
+def _index_string(prefix: str) -> str:
+    """:data:`_INDEX` with a ``<script>`` for each of :data:`EAGER_CHUNKS` under ``prefix``."""
+    tags = "\n            ".join(
+        f'<script src="{prefix}_dash-component-suites/{chunk}"></script>' for chunk in EAGER_CHUNKS
+    )
+    return _INDEX.replace("<!--chunks-->", tags)
 
 
 def _defaults() -> dict[str, Any]:
@@ -164,7 +184,10 @@ def create_app(config: Mapping[str, Any] | None = None) -> dash.Dash:
         index_string=_INDEX,
         meta_tags=[{"name": "viewport", "content": "width=device-width, initial-scale=1"}],
         on_error=_on_error,
+        # page layouts see the session's selection (the Model Bench builds its first answer in)
+        routing_callback_inputs={"selection": State(SELECTION_ID, "data")},
     )
+    app.index_string = _index_string(app.config.requests_pathname_prefix)
     _attach_pages(app)
     app.layout = _shell_layout
     _register_shell_callbacks(app)
@@ -326,6 +349,7 @@ def _shell_layout() -> html.Div:
             ),
             html.Div(id="hc-global-alert", className="hc-global-alert"),
             html.Main(dash.page_container, id="hc-main", className="hc-main"),
+            _lazy_warmers(),
             html.Footer(
                 [
                     html.Span(f"Haulcast {fc.__version__}"),
@@ -338,6 +362,25 @@ def _shell_layout() -> html.Div:
             ),
         ],
         className="hc-shell",
+    )
+
+
+def _lazy_warmers() -> html.Div:
+    """A hidden, empty table and dropdown, drawn with the shell while the page is fetched.
+
+    Dash draws tables and dropdowns with React's lazy components: the first one drawn
+    waits for its code and then for React, which holds content back for about half a second
+    after a placeholder was shown. Drawn here first, the page's own tables and dropdowns
+    draw at once when the page comes.
+    """
+    return html.Div(
+        [
+            dash_table.DataTable(id="hc-warm-table", columns=[{"name": "-", "id": "x"}], data=[]),
+            dcc.Dropdown(id="hc-warm-dropdown", options=[], value=None),
+        ],
+        hidden=True,
+        className="hc-warmers",
+        **{"aria-hidden": "true"},
     )
 
 

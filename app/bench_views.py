@@ -1,13 +1,15 @@
 """Layout of the Model Bench (/bench): the settings panel, the result panels and their placeholders.
 
-Pure layout: no callbacks, no core calls (the callbacks are in :mod:`app.pages.bench`). The
-charts are not part of the first layout: each sits in an empty box (``<id>-box``) that the
-"picked model" callback fills with its :class:`dash.dcc.Graph`, so a first visit draws the
-candidates table without waiting for plotly.js to load and draw five placeholder charts.
+Pure layout: no callbacks, no core calls (the callbacks are in :mod:`app.pages.bench`, which
+may hand :func:`page` a first answer to show at once). The charts are not part of the first
+layout: each sits in an empty box (``<id>-box``) that the "picked model" callback fills with
+its :class:`dash.dcc.Graph`, so a first visit draws the candidates table without waiting for
+plotly.js to load and draw five charts.
 """
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Any
 
 from dash import dcc, html
@@ -232,11 +234,41 @@ def hindcast_results() -> html.Div:
     )
 
 
-def page() -> html.Div:
-    """The whole Model Bench page."""
+def fill(layout: Any, values: Mapping[tuple[str, str], Any]) -> Any:
+    """Set ``values`` (``{(component id, property): value}``) on the components of ``layout``.
+
+    Returns ``layout`` itself; ids that are not in it are ignored.
+    """
+    if values:
+        found = [c for c in layout._traverse() if getattr(c, "id", None) is not None]  # noqa: SLF001
+        for component in found:
+            for (cid, prop), value in values.items():
+                if cid == component.id:
+                    setattr(component, prop, value)
+    return layout
+
+
+def page(first: Mapping[tuple[str, str], Any] | None = None) -> html.Div:
+    """The whole Model Bench page.
+
+    Parameters
+    ----------
+    first : mapping, optional
+        The first answer to show at once, as :func:`fill` takes it (see
+        :func:`app.pages.bench.first_answer`); without it the page starts empty and its
+        arrival callbacks fill it.
+    """
+    return fill(_page(), first or {})
+
+
+def _page() -> html.Div:
     return html.Div(
         [
             dcc.Store(id="bench-mount", data=True),
+            # what the layout was answered for (None: nothing), and the arrival callbacks' start
+            dcc.Store(id="bench-prefill", data=None),
+            dcc.Store(id="bench-go"),
+            dcc.Store(id="bench-shown", data=None),
             dcc.Store(id="bench-request"),
             page_header(
                 "Model Bench",

@@ -5,19 +5,25 @@ The page keeps its settings in ``hc-selection["bench"]`` and the picked candidat
 (:mod:`app.cache`), so the Forecast Board reuses it. The layout is in :mod:`app.bench_views`,
 the picked model's charts in :mod:`app.bench_panels`.
 
-On arrival or after "Run", two callbacks answer side by side: the search (status line and
+On arrival, when the result cache already holds the session's whole answer (the server
+prepares the demo's at start), :func:`layout` builds it in (:func:`first_answer`) and no
+callback runs for it; a clientside check ("bench-go") starts the arrival callbacks when it
+does not, or when the session's selection is not the one the layout was built for. Those
+callbacks, and "Run", answer in two parts side by side: the search (status line and
 candidates table) and the hindcast (benchmarks, skill table, verdict), so the table shows as
-soon as the order search is done. Picking a row (the best one to start with) draws the charts.
+soon as the order search is done. Picking a row (the best one to start with) draws the
+charts, once the table is drawn ("bench-shown"), so that loading plotly.js never delays it.
 """
 
 from __future__ import annotations
 
+import logging
 import time
 from collections.abc import Mapping
 from typing import Any
 
 import dash
-from dash import Input, Output, State, callback, ctx, html, no_update
+from dash import Input, Output, State, callback, clientside_callback, ctx, html, no_update
 from dash.exceptions import PreventUpdate
 
 import forecasting_core as fc
@@ -32,17 +38,27 @@ from app.analysis import (
     search_for,
 )
 from app.bench_panels import panels
+from app.cache import NotCached, cached_only
 from app.state import SELECTION_ID, resolve_selection
 from app.ui import guarded
+
+log = logging.getLogger(__name__)
 
 dash.register_page(
     __name__, path="/bench", name="Model Bench", order=2, title="Model Bench \u00b7 Haulcast"
 )
 
 
-def layout(**_query: Any) -> Any:
-    """The Model Bench page."""
-    return bench_views.page()
+def layout(selection: Mapping[str, Any] | None = None, **_query: Any) -> Any:
+    """The Model Bench page, with its first answer in it when the result cache has it.
+
+    Parameters
+    ----------
+    selection : dict, optional
+        The session's ``hc-selection`` as the page router saw it (``routing_callback_inputs``
+        in :func:`app.create_app`); None for a new visitor.
+    """
+    return bench_views.page(first_answer(selection))
 
 
 # ---------------------------------------------------------------------------------------------
@@ -77,16 +93,130 @@ def _request(sel: Mapping[str, Any]) -> dict[str, Any]:
     }
 
 
-@callback(
-    *[Output(c, "value") for c in _CONTROLS],
-    Output("bench-seasonal", "options"),
-    Output("bench-alert", "children"),
+#: The outputs of each arrival callback, as (component id, property); the same values go
+#: into the layout when the first answer is built there (see first_answer).
+RESTORE_OUT: tuple[tuple[str, str], ...] = (
+    *[(c, "value") for c in _CONTROLS],
+    ("bench-seasonal", "options"),
+    ("bench-alert", "children"),
+)
+SEARCH_OUT: tuple[tuple[str, str], ...] = (
+    ("bench-status", "children"),
+    ("bench-candidates", "data"),
+    ("bench-candidates", "selected_rows"),
+    ("bench-alert", "children"),
+)
+HINDCAST_OUT: tuple[tuple[str, str], ...] = (
+    ("bench-benchmarks", "children"),
+    ("bench-skill", "data"),
+    ("bench-verdict", "children"),
+    ("bench-timing", "children"),
+    ("bench-alert", "children"),
+)
+PICK_OUT: tuple[tuple[str, str], ...] = (
+    *[(f"{graph_id}-box", "children") for graph_id, _name, _height in bench_views.GRAPHS],
+    ("bench-ljung", "children"),
+    ("bench-picked", "children"),
+    (SELECTION_ID, "data"),
+    ("bench-alert", "children"),
+    ("bench-candidates", "style_data_conditional"),
+)
+
+
+#: Outputs more than one callback writes.
+_SHARED = {(SELECTION_ID, "data"), ("bench-alert", "children")}
+
+
+def _outputs(spec: tuple[tuple[str, str], ...]) -> list[Output]:
+    return [Output(i, p, allow_duplicate=(i, p) in _SHARED) for i, p in spec]
+
+
+def first_answer(selection: Mapping[str, Any] | None) -> dict[tuple[str, str], Any]:
+    """The page's first answer for this session, when every part of it is already cached.
+
+    Returns
+    -------
+    dict
+        ``{(component id, property): value}`` of what the arrival callbacks (restore, render,
+        render_hindcast) would show, the picked row's tint, and ``("bench-prefill", "data")``
+        holding the selection it was built for; empty when any part is not cached yet
+        (nothing is computed here) or on any error, and the callbacks answer as before. The
+        charts are left to ``pick``, which also writes any correction of the selection.
+    """
+    if selection is not None and not isinstance(selection, Mapping):
+        return {}
+    try:
+        with cached_only():
+            return _first_answer(selection)
+    except NotCached:
+        return {}
+    except Exception:  # noqa: BLE001 - the callbacks answer (and show any error) instead
+        log.debug("No first answer in the Model Bench layout", exc_info=True)
+        return {}
+
+
+def _first_answer(selection: Mapping[str, Any] | None) -> dict[tuple[str, str], Any]:
+    sel = _selection_request(selection)
+    if not sel["dataset_id"] or not sel["series"]:
+        return {}
+    request = _request(sel)
+    filled = dict(zip(RESTORE_OUT, _restored(sel), strict=True))
+    searched = _searched(request)
+    filled.update(zip(SEARCH_OUT, searched, strict=True))
+    filled.update(zip(HINDCAST_OUT, _replayed(request), strict=True))
+    rows, selected = searched[1], searched[2]
+    if not selected:
+        return {}
+    # the charts and the residual verdict are left to pick (called as the page is inserted)
+    filled[("bench-candidates", "style_data_conditional")] = tables.candidate_styles(rows[selected[0]]["id"])
+    filled[("bench-prefill", "data")] = {"selection": selection}
+    return filled
+
+
+# On arrival the layout may already hold the answer (first_answer): then nothing is sent to
+# the server. Otherwise, or when the session's selection is not the one the layout was built
+# for, "bench-go" starts the arrival callbacks.
+clientside_callback(
+    """
+    function(_mount, selection, shown) {
+        const same = shown && JSON.stringify(selection == null ? null : selection) ===
+            JSON.stringify(shown.selection == null ? null : shown.selection);
+        return same ? window.dash_clientside.no_update : Date.now();
+    }
+    """,
+    Output("bench-go", "data"),
     Input("bench-mount", "data"),
     State(SELECTION_ID, "data"),
+    State("bench-prefill", "data"),
+)
+
+
+# "bench-shown" turns true once the candidates table has drawn (it then reports its rows).
+clientside_callback(
+    """
+    function(_rows, shown) {
+        return shown ? window.dash_clientside.no_update : true;
+    }
+    """,
+    Output("bench-shown", "data"),
+    Input("bench-candidates", "derived_virtual_data"),
+    State("bench-shown", "data"),
+    prevent_initial_call=True,
+)
+
+
+@callback(
+    *_outputs(RESTORE_OUT),
+    Input("bench-go", "data"),
+    State(SELECTION_ID, "data"),
+    prevent_initial_call=True,
 )
 @guarded("restoring the Model Bench settings", outputs=10, alert_at=9)
-def restore(_mount: Any, data: Mapping[str, Any] | None) -> list[Any]:
-    sel = _selection_request(data)
+def restore(_go: Any, data: Mapping[str, Any] | None) -> list[Any]:
+    return _restored(_selection_request(data))
+
+
+def _restored(sel: Mapping[str, Any]) -> list[Any]:
     b = sel["bench"]
     frequency = None
     if sel["dataset_id"] and sel["series"]:
@@ -166,20 +296,20 @@ def _warnings(warnings: tuple[str, ...] | list[str]) -> list[html.Div]:
 
 
 @callback(
-    Output("bench-status", "children"),
-    Output("bench-candidates", "data"),
-    Output("bench-candidates", "selected_rows"),
-    Output("bench-alert", "children", allow_duplicate=True),
-    Input("bench-mount", "data"),
+    *_outputs(SEARCH_OUT),
+    Input("bench-go", "data"),
     Input("bench-request", "data"),
     State(SELECTION_ID, "data"),
-    prevent_initial_call="initial_duplicate",
+    prevent_initial_call=True,
 )
 @guarded("comparing models", outputs=4, alert_at=3)
 def render(
-    _mount: Any, request: Mapping[str, Any] | None, data: Mapping[str, Any] | None
+    _go: Any, request: Mapping[str, Any] | None, data: Mapping[str, Any] | None
 ) -> list[Any]:
-    request = _arrival_request(request, data)
+    return _searched(_arrival_request(request, data))
+
+
+def _searched(request: Mapping[str, Any]) -> list[Any]:
     search = search_for(request)
     picked = chosen_candidate(search, request.get("model"))
     n_ok = len(search.accepted)
@@ -203,21 +333,20 @@ def render(
 
 
 @callback(
-    Output("bench-benchmarks", "children"),
-    Output("bench-skill", "data"),
-    Output("bench-verdict", "children"),
-    Output("bench-timing", "children"),
-    Output("bench-alert", "children", allow_duplicate=True),
-    Input("bench-mount", "data"),
+    *_outputs(HINDCAST_OUT),
+    Input("bench-go", "data"),
     Input("bench-request", "data"),
     State(SELECTION_ID, "data"),
-    prevent_initial_call="initial_duplicate",
+    prevent_initial_call=True,
 )
 @guarded("replaying past years", outputs=5, alert_at=4)
 def render_hindcast(
-    _mount: Any, request: Mapping[str, Any] | None, data: Mapping[str, Any] | None
+    _go: Any, request: Mapping[str, Any] | None, data: Mapping[str, Any] | None
 ) -> list[Any]:
-    request = _arrival_request(request, data)
+    return _replayed(_arrival_request(request, data))
+
+
+def _replayed(request: Mapping[str, Any]) -> list[Any]:
     # the whole answer: the search (computed or waited for beside render) and the hindcast
     started = time.perf_counter()
     comparison = comparison_for(request)
@@ -235,15 +364,11 @@ def render_hindcast(
 
 
 @callback(
-    *[Output(f"{graph_id}-box", "children") for graph_id, _name, _height in bench_views.GRAPHS],
-    Output("bench-ljung", "children"),
-    Output("bench-picked", "children"),
-    Output(SELECTION_ID, "data", allow_duplicate=True),
-    Output("bench-alert", "children", allow_duplicate=True),
-    Output("bench-candidates", "style_data_conditional"),
+    *_outputs(PICK_OUT),
     Input("bench-candidates", "selected_rows"),
     # a new hindcast (e.g. "Run" with another horizon, the same row picked) redraws the charts
     Input("bench-skill", "data"),
+    Input("bench-shown", "data"),
     State("bench-candidates", "data"),
     State(SELECTION_ID, "data"),
     prevent_initial_call=True,
@@ -252,15 +377,22 @@ def render_hindcast(
 def pick(
     selected: list[int] | None,
     _skill: Any,
+    shown: Any,
     rows: list[dict[str, Any]] | None,
     data: Mapping[str, Any] | None,
 ) -> list[Any]:
-    if not selected or not rows or selected[0] >= len(rows):
+    # Not before the table is drawn (plotly.js, loaded with the first chart, would delay it).
+    # Dash also calls this as the page is inserted (it writes the shell's hc-selection, so
+    # prevent_initial_call does not hold): with the layout's first answer in, the charts are
+    # drawn once the table is ("bench-shown")
+    if not shown or not selected or not rows or selected[0] >= len(rows):
         raise PreventUpdate
     # "Run" writes its settings into the selection, so the selection names this comparison
-    request = _selection_request(data)
+    return _picked(_selection_request(data), data, rows[selected[0]]["id"])
+
+
+def _picked(request: Mapping[str, Any], data: Mapping[str, Any] | None, label: str) -> list[Any]:
     comparison = comparison_for(request)
-    label = rows[selected[0]]["id"]
     candidate = next((c for c in comparison.candidates if c.label == label), None)
     if candidate is None or not candidate.ok:
         why = candidate.reason if candidate is not None else "not part of this comparison"
