@@ -10,9 +10,13 @@ import argparse
 import json
 import sys
 import textwrap
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from forecasting_core._results import InputError, Table
+if TYPE_CHECKING:
+    from forecasting_core._results import Table
+
+# The core (pandas, scipy, statsmodels, numba) loads only once a command runs, so --help and
+# argument errors answer at once.
 
 EXIT_OK, EXIT_UNEXPECTED, EXIT_UNUSABLE = 0, 1, 2
 
@@ -103,6 +107,7 @@ def build_parser() -> argparse.ArgumentParser:
 
 def _stationarity(table: Table) -> dict[str, tuple[Any, str | None]]:
     """Series name -> (StationarityReport or None, note when it could not be assessed)."""
+    from forecasting_core._results import InputError
     from forecasting_core._stationarity import assess_stationarity
 
     out: dict[str, tuple[Any, str | None]] = {}
@@ -180,6 +185,8 @@ def main(argv: list[str] | None = None) -> int:
         args = build_parser().parse_args(argv)
     except SystemExit as exc:  # --help (0) or a usage error (2)
         return int(exc.code) if isinstance(exc.code, int) else EXIT_UNUSABLE
+    from forecasting_core._results import InputError
+
     try:
         if args.command == "check":
             return _cli_check(args)

@@ -141,8 +141,8 @@ class _ProcessEngine:
 
     def __init__(self, workers: int) -> None:
         self.slots = workers
-        try:  # compiled code loaded (or compiled once) here: forked workers inherit it
-            from forecasting_core._fastarma import warm_up
+        try:  # core modules and compiled code loaded here: forked workers inherit them
+            from forecasting_core import warm_up
 
             warm_up()
         except Exception:  # a task that needs it reports the failure itself
