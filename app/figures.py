@@ -186,13 +186,11 @@ def fan_chart(
         )
     )
     ref = forecast.reference if reference is None else reference
-    if ref is not None and not (isinstance(ref, float) and math.isnan(ref)):
+    has_ref = ref is not None and not (isinstance(ref, float) and math.isnan(ref))
+    if has_ref:
         fig.add_hline(
             y=float(ref),
             line={"color": COLORS["reference"], "width": 2, "dash": "dash"},
-            annotation_text=f"reference level {_fmt(float(ref))}",
-            annotation_position="bottom left",
-            annotation_font={"color": COLORS["reference"]},
         )
     _style(
         fig,
@@ -201,8 +199,27 @@ def fan_chart(
         frequency=frequency,
         height=height,
     )
+    if has_ref:
+        # the label sits in the right margin, level with the line: never over the data
+        fig.add_annotation(
+            text=f"reference<br>level<br>{_fmt(float(ref))}",
+            xref="paper",
+            x=1,
+            xanchor="left",
+            xshift=6,
+            yref="y",
+            y=float(ref),
+            yanchor="middle",
+            align="left",
+            showarrow=False,
+            font={"color": COLORS["reference"], "size": 11},
+        )
+        fig.update_layout(margin={"r": REFERENCE_MARGIN_PX})
     return fig
 
+
+#: Right margin (px) of a fan chart with a reference level: room for its label.
+REFERENCE_MARGIN_PX = 72
 
 #: Top margin (px) that keeps a figure's text clear of plotly's modebar.
 MODEBAR_PX = 34

@@ -77,7 +77,9 @@ def hindcast_sentence(comparison: Comparison | None, model: str) -> str:
         mine, naive = pair
         n = mine.origins
     if naive is None or math.isnan(naive.mase) or math.isnan(mine.mase) or not naive.mase:
-        text = f"Replayed from {n} past origins, its forecasts missed by {mine.mae:,.3g} on average."
+        text = (
+            f"Replayed from {n} past origins, its forecasts missed by {mine.mae:,.3g} on average."
+        )
         better = benchmark_sentence(comparison, model)
         return f"{text} {better}" if better else text
     # MASE ratio: the same measure as the hindcast verdict on the Model Bench
@@ -137,8 +139,7 @@ def benchmark_sentence(comparison: Comparison | None, model: str) -> str:
     if not found:
         return ""
     parts = [
-        f"the {label} benchmark (errors {100 * (1 - a / b):.0f}% smaller, MASE {a:.2f} vs "
-        f"{b:.2f})"
+        f"the {label} benchmark (errors {100 * (1 - a / b):.0f}% smaller, MASE {a:.2f} vs {b:.2f})"
         for label, a, b in found
     ]
     if len(parts) == 1:

@@ -154,7 +154,9 @@ def layout(present: str | None = None, analysis: str | None = None, **_query: An
                         className="hc-grid board-grid",
                     ),
                     section(
-                        "Forecast table", html.Div(id="board-table", className="hc-table-wrap")
+                        "Forecast table",
+                        # the whole table (at most 30 rows), not a scroll box inside the card
+                        html.Div(id="board-table", className="hc-table-wrap hc-table-wrap--full"),
                     ),
                     section(
                         "Model details",

@@ -6,6 +6,8 @@ annual volumes 1871-1970, 10^8 m^3).
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -43,6 +45,19 @@ def test_fan_chart_draws_the_reference_level(forecast, nile):
     fig = figures.fan_chart(forecast, nile)
     assert [s.y0 for s in fig.layout.shapes] == [800.0]
     assert "800" in fig.layout.annotations[0].text
+
+
+def test_reference_label_sits_in_the_right_margin_not_over_the_data(forecast, nile):
+    fig = figures.fan_chart(forecast, nile)
+    label = next(a for a in fig.layout.annotations if "800" in a.text)
+    # paper x = 1 with a left anchor: the label starts right of the plotting area, where no
+    # observed value or band is drawn; level with the line (data y)
+    assert (label.xref, label.x, label.xanchor) == ("paper", 1, "left")
+    assert (label.yref, label.y) == ("y", 800.0)
+    assert fig.layout.margin.r >= 60  # room for "reference level 800" on three short lines
+    # without a reference level the margin stays narrow
+    plain = figures.fan_chart(dataclasses.replace(forecast, reference=None), nile)
+    assert not plain.layout.annotations and plain.layout.margin.r < 60
 
 
 def test_fan_chart_keeps_gaps_in_history_as_gaps(forecast, nile):
