@@ -34,8 +34,27 @@ def parse_horizon(value: Any) -> int:
     return int(text)
 
 
+# The ranges forecasting_core._search.check_order allows (a test checks they agree), per option:
+# (name of each number, its allowed values).
+ORDER_RANGES: dict[str, tuple[tuple[str, range | tuple[int, ...]], ...]] = {
+    "--order": (("p", range(0, 11)), ("d", range(0, 3)), ("q", range(0, 11))),
+    "--seasonal": (("P", range(0, 4)), ("D", range(0, 2)), ("Q", range(0, 4)), ("m", (4, 12))),
+}
+_ORDINALS = ("first", "second", "third", "fourth")
+
+
+def _allowed(values: range | tuple[int, ...]) -> str:
+    if isinstance(values, range):
+        return f"an integer from {values.start} to {values.stop - 1}"
+    return " or ".join(str(v) for v in values) + " (4 for quarterly, 12 for monthly data)"
+
+
 def parse_ints(value: Any, count: int, option: str, example: str) -> tuple[int, ...] | None:
-    """``--order p,d,q`` / ``--seasonal P,D,Q,m``: comma-separated non-negative integers."""
+    """``--order p,d,q`` / ``--seasonal P,D,Q,m``: comma-separated non-negative integers.
+
+    Each number is checked against :data:`ORDER_RANGES`; the message names the option, the
+    number and what was given ("--order 9,3,9: d, the second number, must be ...").
+    """
     if value is None:
         return None
     if isinstance(value, Sequence) and not isinstance(value, str):
@@ -47,7 +66,16 @@ def parse_ints(value: Any, count: int, option: str, example: str) -> tuple[int, 
             f"{option} must be {count} non-negative integers separated by commas, such as "
             f"{example}. Got {value if isinstance(value, str) else ','.join(parts)!r} instead."
         )
-    return tuple(int(p) for p in parts)
+    numbers = tuple(int(p) for p in parts)
+    for k, ((name, values), v) in enumerate(
+        zip(ORDER_RANGES.get(option, ()), numbers, strict=False)
+    ):
+        if v not in values:
+            raise InputError(
+                f"{option} {','.join(parts)}: {name}, the {_ORDINALS[k]} number, must be "
+                f"{_allowed(values)}. Got {v} instead."
+            )
+    return numbers
 
 
 def parse_transform(value: Any) -> str:

@@ -40,7 +40,7 @@ from forecasting_core._cli_writers import (
     write_csv_rows,
     write_forecast_csv,
 )
-from forecasting_core._results import CAUTIONS, InputError
+from forecasting_core._results import CAUTIONS, InputError, frequency_of
 
 # Re-exported: tests and benchmarks/batch_speed.py import these names from here.
 __all__ = [
@@ -92,6 +92,14 @@ def _forecast(args: Any) -> int:
     table = _read(_opt(args, "file"))
     y = _pick_series(table, _opt(args, "series"))
     settings: dict[str, Any] = {}
+    freq = frequency_of(y)
+    period = {"quarterly": 4, "monthly": 12}.get(freq)
+    if seasonal is not None and any(seasonal[:3]) and seasonal[3] != period:
+        need = f"m = {period}" if period else "no --seasonal (annual data have no season)"
+        raise InputError(
+            f"--seasonal {','.join(str(v) for v in seasonal)}: the series is {freq}, so it "
+            f"needs {need}. Got m = {seasonal[3]} instead."
+        )
     if order is not None:
         settings["order"] = order
         settings["seasonal_order"] = seasonal

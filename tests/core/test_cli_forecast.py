@@ -157,7 +157,10 @@ def test_plain_forecast_is_a_readable_table_with_verdict_and_cautions(capsys):
         ({"horizon": "five"}, "--horizon must be an integer from 1 to 30. Got 'five' instead."),
         ({"reference": "lots"}, "--reference must be a number"),
         ({"file": "no_such_file.csv"}, "FILE must be an existing CSV or Excel file."),
-        ({"order": "1,3,0"}, "d must be an integer from 0 to 2. Got 3 instead."),
+        (
+            {"order": "1,3,0"},
+            "--order 1,3,0: d, the second number, must be an integer from 0 to 2. Got 3 instead.",
+        ),
     ],
 )
 def test_unusable_arguments_exit_2_with_a_plain_message(capsys, change, message):
