@@ -16,7 +16,7 @@ from dash.exceptions import PreventUpdate
 
 from app import board_saved, export, figures, saved, saved_views
 from app.analysis import board_state
-from app.board_views import fan_figure, prob_figure
+from app.board_views import fan_figure, prob_figure, series_notes
 from app.record_views import RecordData, record_data
 from app.state import SELECTION_ID
 from app.ui import guarded
@@ -49,6 +49,7 @@ def download_csv(
         dataset_hash=state["selection"]["dataset_id"],
         dataset_name=state["dataset_name"],
         analysis=export_analysis(state),
+        data=series_notes(state),
     )
     name = f"{safe_name(state['forecast'].series_name)}_forecast.csv"
     return [dcc.send_string(text, name, type="text/csv"), None]
@@ -102,6 +103,7 @@ def download_html(
         record_analyses=[a.to_dict() for a in past.analyses] if past is not None else (),
         record_scored_on=past.scored_on if past is not None else "",
         record_newer=past.newer if past is not None else False,
+        data=series_notes(state),
     )
     name = f"{safe_name(forecast.series_name)}_report.html"
     return [dcc.send_string(page, name, type="text/html"), None]

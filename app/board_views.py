@@ -130,7 +130,23 @@ def details(state: Mapping[str, Any]) -> list[Any]:
         parts.append(html.P([html.Strong("Residuals: "), diag.verdict]))
     for w in (*forecast.warnings, *comparison.warnings):
         parts.append(html.Div(w, className="hc-alert hc-alert--warning", role="note"))
+    for note in series_notes(state):
+        parts.append(
+            html.Div(note, className="hc-alert hc-alert--warning board-data-note", role="note")
+        )
     return parts
+
+
+def series_notes(state: Mapping[str, Any]) -> list[str]:
+    """What the file check found in the board's series (gaps, cells read as missing, zeros)."""
+    from app.store import get_store
+
+    sel = state["selection"]
+    try:
+        info = get_store().load_table(sel["dataset_id"]).info.get(sel["series"])
+    except fc.InputError:
+        return []
+    return wording.data_notes(info)
 
 
 @functools.cache

@@ -173,6 +173,7 @@ def forecast_csv(
     dataset_hash: str | None = None,
     dataset_name: str | None = None,
     analysis: Mapping[str, Any] | None = None,
+    data: Sequence[str] = (),
 ) -> str:
     """The forecast table as CSV text with a commented header.
 
@@ -180,7 +181,8 @@ def forecast_csv(
     what produced the forecast, the saved analysis and its sign-offs when ``analysis`` is
     given (see :func:`analysis_lines`), then every caution: the general ones, then those the
     board shows for this forecast (:func:`app.wording.specific_notes`: ``hindcast:``,
-    ``caution:``, ``residuals:``, ``warning:`` lines). Then one row per step: ``time, step,
+    ``caution:``, ``residuals:``, ``warning:`` lines, and ``data:`` lines for ``data``, the
+    notes on the series' data from :func:`app.wording.data_notes`). Then one row per step: ``time, step,
     mean, median, lo{level}, hi{level}, ..., prob_below_reference`` (probability 0..1, empty
     without a reference level). Every cell goes through :func:`neutralise_cell`.
 
@@ -199,7 +201,7 @@ def forecast_csv(
         header += analysis_lines(analysis)
     header += [f"caution: {c}" for c in (forecast.cautions or CAUTIONS)]
     # the board's own cautions for this forecast (hindcast, bands, residuals, data warnings)
-    header += [f"{kind}: {text}" for kind, text in specific_notes(forecast, comparison)]
+    header += [f"{kind}: {text}" for kind, text in specific_notes(forecast, comparison, data)]
     for line in header:
         buf.write(_comment_line(line) + "\r\n")
     writer = csv.writer(buf)
@@ -250,6 +252,7 @@ def report_html(
     record_analyses: Sequence[Mapping[str, Any]] = (),
     record_scored_on: str = "",
     record_newer: bool = False,
+    data: Sequence[str] = (),
 ) -> str:
     """A standalone HTML report that opens offline.
 
@@ -278,6 +281,8 @@ def report_html(
         The dataset the record was scored against (``RecordData.scored_on``).
     record_newer : bool, optional
         Whether that dataset has newer values than the forecast's.
+    data : sequence of str, optional
+        Notes on the series' data (:func:`app.wording.data_notes`), shown with the warnings.
 
     Returns
     -------
@@ -339,6 +344,8 @@ def report_html(
             parts.append(f"<p>Residual checks ({e(diag.model)}): {e(diag.verdict)}</p>")
     for w in forecast.warnings + (comparison.warnings if comparison is not None else ()):
         parts.append(f"<p><strong>Warning:</strong> {e(w)}</p>")
+    for note in data:
+        parts.append(f"<p><strong>Data:</strong> {e(note)}</p>")
     parts.append("<h2>What produced this forecast</h2>")
     parts.append(meta_table({k: v for k, v in meta.items() if v != ""}))
     chosen = (

@@ -7,8 +7,9 @@ them, the unit after each value, probabilities in whole percent.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 
-from forecasting_core import Comparison, Forecast, SkillScore
+from forecasting_core import Comparison, Forecast, SeriesInfo, SkillScore
 
 #: The benchmark the chosen model is measured against in the summary.
 LAST_VALUE = "last value"
@@ -299,7 +300,40 @@ def mase_words(mase: float, frequency: str) -> str:
     return f"errors {times} times the typical {change}"
 
 
-def specific_notes(forecast: Forecast, comparison: Comparison | None) -> list[tuple[str, str]]:
+_PERIOD = {"annual": "year", "quarterly": "quarter", "monthly": "month"}
+
+
+def data_notes(info: SeriesInfo | None) -> list[str]:
+    """What Intake found in this series' data (gaps, cells read as missing, zeros), in words.
+
+    Parameters
+    ----------
+    info : SeriesInfo, optional
+        ``Table.info[series]`` of the dataset the forecast was made from.
+
+    Returns
+    -------
+    list of str
+        The file check's message for each problem of this series; when there is none but
+        periods are missing, one sentence counting them.
+    """
+    if info is None:
+        return []
+    out = [f"{info.name}: {p.message}" for p in info.problems]
+    if not out and info.missing:
+        one = _PERIOD.get(info.frequency, "period")
+        word = one if info.missing == 1 else one + "s"
+        out.append(
+            f"{info.name} has {info.missing} missing {word} between {info.start} and "
+            f"{info.end}; {'it stays' if info.missing == 1 else 'they stay'} missing in the "
+            "model's data."
+        )
+    return out
+
+
+def specific_notes(
+    forecast: Forecast, comparison: Comparison | None, data: Sequence[str] = ()
+) -> list[tuple[str, str]]:
     """The cautions the Forecast Board shows for this forecast, beyond the general ones.
 
     For exports that must carry what the board says (the CSV's ``#`` lines): how the model did
@@ -312,12 +346,14 @@ def specific_notes(forecast: Forecast, comparison: Comparison | None) -> list[tu
     forecast : Forecast
     comparison : Comparison, optional
         The comparison the model came from.
+    data : sequence of str, optional
+        Notes on the series' data (:func:`data_notes`).
 
     Returns
     -------
     list of (str, str)
-        ``(kind, text)`` with kind ``"hindcast"``, ``"caution"``, ``"residuals"`` or
-        ``"warning"``, in the order the board shows them.
+        ``(kind, text)`` with kind ``"hindcast"``, ``"caution"``, ``"residuals"``,
+        ``"warning"`` or ``"data"``, in the order the board shows them.
     """
     out: list[tuple[str, str]] = []
     model = forecast.model
@@ -335,4 +371,5 @@ def specific_notes(forecast: Forecast, comparison: Comparison | None) -> list[tu
         if w not in seen:
             seen.add(w)
             out.append(("warning", w))
+    out += [("data", text) for text in data]
     return out

@@ -18,6 +18,7 @@ from app.board_views import variance_label
 from app.export import forecast_csv, report_html
 from app.wording import (
     better_benchmarks,
+    data_notes,
     forecast_summary,
     hindcast_sentence,
     reference_sentence,
@@ -169,3 +170,33 @@ def test_reference_sentence_names_the_highest_risk_period(probs, expected):
 )
 def test_variance_label_names_the_scale(name, lam, expected):
     assert variance_label(fc.TransformSpec(name, lam, "")) == expected
+
+
+# -- the series' data problems travel with the exports -----------------------------------------
+
+
+def test_csv_and_report_name_the_gaps_the_file_check_found(nile, comparison, forecast, tmp_path):
+    # the Nile file with 1913 and 1914 left empty: read back by the core's own file check
+    lines = ["year,nile_t"] + [
+        f"{p.year}," + ("" if p.year in (1913, 1914) else f"{v:g}") for p, v in nile.items()
+    ]
+    path = tmp_path / "nile.csv"
+    path.write_text("\n".join(lines) + "\n")
+    table = fc.read_table(path)
+    info = table.info["nile_t"]
+    assert info.missing == 2
+    notes = data_notes(info)
+    assert notes and all(n.startswith("nile_t: ") for n in notes)
+    assert any("1913" in n for n in notes), notes
+    text = forecast_csv(forecast, comparison, data=notes)
+    assert any(line.startswith("# data: nile_t: ") and "1913" in line for line in text.splitlines())
+    assert "<strong>Data:</strong> nile_t: " in report_html(forecast, comparison, data=notes)
+
+
+def test_missing_periods_without_a_problem_are_counted_in_words():
+    info = fc.SeriesInfo("cod_t", "monthly", 40, 1, "2020-01", "2023-05", True)
+    assert data_notes(info) == [
+        "cod_t has 1 missing month between 2020-01 and 2023-05; it stays missing in the "
+        "model's data."
+    ]
+    assert data_notes(None) == []
