@@ -30,6 +30,7 @@ import pandas as pd
 from scipy.stats import norm
 
 from forecasting_core._arima import filter_candidate
+from forecasting_core._nonneg import clip_at_zero
 from forecasting_core._results import (
     Benchmark,
     Candidate,
@@ -248,6 +249,10 @@ def make_forecast(
         else:
             prob = np.array([float(np.mean(mu[h - 1] + errors[h] < t_ref)) for h in range(1, horizon + 1)])
     table["prob_below_reference"] = prob
+    # A series that is never negative (catch, CPUE): median and bands of max(Y, 0), see _nonneg.
+    clipped = clip_at_zero(table, levels_t, np.asarray(y, dtype=float), mu, sd, spec.name, ref)
+    if clipped:
+        warnings_.append(clipped)
     if ref is not None and ref <= 0 and spec.name in ("log", "boxcox"):
         warnings_.append(
             f"The reference level {ref:g} is at or below zero, which a {spec.name}-scale model "
