@@ -264,7 +264,7 @@ def choose_transform(y: ArrayLike, method: str = "auto") -> TransformSpec:
         return TransformSpec(
             "none",
             None,
-            f"automatic: no transform, because the series has a value at or below 0 "
+            f"automatic: no transform, the series has a value at or below 0 "
             f"({float(v[i])!r} {_where(y, i)}), so a log is impossible",
         )
     try:

@@ -231,6 +231,11 @@ def test_auto_refuses_the_log_for_a_series_with_zero_and_says_where():
     spec = choose_transform(y, "auto")
     assert spec.name == "none"
     assert "1979" in spec.reason and "at or below 0" in spec.reason
+    # One clause after the choice, not "because X, so Y" (an ungrammatical pair of linkers).
+    assert spec.reason == (
+        "automatic: no transform, the series has a value at or below 0 (0.0 in 1979), "
+        "so a log is impossible"
+    )
 
 
 def test_boxcox_choice_carries_guerreros_lambda():
