@@ -15,7 +15,7 @@ from typing import Any
 from dash import dcc, html
 
 from app import figures, tables
-from app.analysis import CONSTANT_LABELS, SEARCH_LABELS
+from app.analysis import CONSTANT_LABELS, DIFFERENCES, SEARCH_LABELS
 from app.state import TRANSFORM_LABELS, TRANSFORMS
 from app.ui import page_header, section
 
@@ -42,7 +42,11 @@ def field(label: str, control: Any, hint: str | None = None) -> html.Div:
 
 
 def settings_panel() -> html.Section:
-    number = {"type": "number", "step": 1, "debounce": True, "className": "hc-input"}
+    # debounce=False: dash's Input with debounce=True compares a value typed then blurred with
+    # the value it had when last blurred (or first drawn), not with the one a callback set since,
+    # so typing the layout's 5 after the page restored 9 was dropped and "Run" used 9. Nothing
+    # listens to these as an Input (the "Run" callback reads them as State), so no request per key.
+    number = {"type": "number", "step": 1, "debounce": False, "className": "hc-input"}
     return section(
         "Settings",
         field(
@@ -99,6 +103,40 @@ def settings_panel() -> html.Section:
         html.Div(
             [
                 field(
+                    "Differences d",
+                    dcc.Dropdown(
+                        id="bench-d",
+                        options=[{"label": "Automatic", "value": "auto"}]
+                        + [{"label": str(n), "value": n} for n in DIFFERENCES["d"]],
+                        value="auto",
+                        clearable=False,
+                        searchable=False,
+                        className="hc-dropdown",
+                    ),
+                ),
+                field(
+                    "Seasonal D",
+                    dcc.Dropdown(
+                        id="bench-D",
+                        options=[{"label": "Automatic", "value": "auto"}]
+                        + [{"label": str(n), "value": n} for n in DIFFERENCES["D"]],
+                        value="auto",
+                        clearable=False,
+                        searchable=False,
+                        className="hc-dropdown",
+                    ),
+                ),
+            ],
+            className="hc-row bench-pair",
+        ),
+        html.Span(
+            "Automatic: from the stationarity tests, as Intake shows them. D only with "
+            "seasonal terms (monthly and quarterly data).",
+            className="hc-field__hint",
+        ),
+        html.Div(
+            [
+                field(
                     "Hindcast origins",
                     dcc.Input(
                         id="bench-origins", min=1, max=40, value=None, placeholder="auto", **number
@@ -113,6 +151,8 @@ def settings_panel() -> html.Section:
             ],
             className="hc-row bench-pair",
         ),
+        # what went back to its default for this series' frequency (see bench_for_frequency)
+        html.P(id="bench-settings-note", className="hc-field__hint bench-settings-note", role="status"),
         html.Button("Run comparison", id="bench-run", n_clicks=0, className="hc-button bench-run"),
         html.P(id="bench-timing", className="hc-figure-note"),
         className="bench-settings",

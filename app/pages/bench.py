@@ -30,6 +30,7 @@ import forecasting_core as fc
 from app import bench_views, tables
 from app.analysis import (
     DEFAULT_BENCH,
+    FREQUENCY_KEY,
     bench_settings,
     changed_selection,
     chosen_candidate,
@@ -74,6 +75,8 @@ _CONTROLS = [
     "bench-constant",
     "bench-origins",
     "bench-horizon",
+    "bench-d",
+    "bench-D",
 ]
 
 
@@ -98,6 +101,8 @@ def _request(sel: Mapping[str, Any]) -> dict[str, Any]:
 RESTORE_OUT: tuple[tuple[str, str], ...] = (
     *[(c, "value") for c in _CONTROLS],
     ("bench-seasonal", "options"),
+    ("bench-D", "disabled"),
+    ("bench-settings-note", "children"),
     ("bench-alert", "children"),
 )
 SEARCH_OUT: tuple[tuple[str, str], ...] = (
@@ -211,19 +216,22 @@ clientside_callback(
     State(SELECTION_ID, "data"),
     prevent_initial_call=True,
 )
-@guarded("restoring the Model Bench settings", outputs=10, alert_at=9)
+@guarded("restoring the Model Bench settings", outputs=len(RESTORE_OUT), alert_at=len(RESTORE_OUT) - 1)
 def restore(_go: Any, data: Mapping[str, Any] | None) -> list[Any]:
     return _restored(_selection_request(data))
 
 
+def _frequency(sel: Mapping[str, Any]) -> str | None:
+    if not sel.get("dataset_id") or not sel.get("series"):
+        return None
+    from app.store import get_store
+
+    return get_store().load_table(sel["dataset_id"]).info[sel["series"]].frequency
+
+
 def _restored(sel: Mapping[str, Any]) -> list[Any]:
     b = sel["bench"]
-    frequency = None
-    if sel["dataset_id"] and sel["series"]:
-        from app.store import get_store
-
-        frequency = get_store().load_table(sel["dataset_id"]).info[sel["series"]].frequency
-    annual = frequency in (None, "annual")
+    annual = _frequency(sel) in (None, "annual")
     options = [
         {
             "label": "Search seasonal terms" + (" (not for annual data)" if annual else ""),
@@ -240,7 +248,11 @@ def _restored(sel: Mapping[str, Any]) -> list[Any]:
         b["constant"],
         b["origins"],
         b["horizon"],
+        "auto" if b["d"] is None else b["d"],
+        "auto" if b["D"] is None or annual else b["D"],
         options,
+        annual,  # no seasonal differences in annual data
+        sel.get("bench_note"),
         None,
     ]
 
@@ -265,21 +277,32 @@ def run(
     constant: str,
     origins: Any,
     horizon: Any,
+    d: Any,
+    big_d: Any,
     data: Mapping[str, Any] | None,
 ) -> list[Any]:
     if not _n:
         raise PreventUpdate
+    sel = _selection_request(data)
+    frequency = _frequency(sel)
+    annual = frequency in (None, "annual")
     bench = bench_settings(
         {
             "search": search,
             "max_p": max_p,
             "max_q": max_q,
-            "seasonal": "on" in (seasonal or []),
+            # annual data: the box is greyed out and unticked, which is no choice; keep the
+            # session's (so a monthly series chosen later still gets its seasonal terms)
+            "seasonal": sel["bench"]["seasonal"] if annual else "on" in (seasonal or []),
             "constant": constant,
             "origins": origins,
             "horizon": horizon,
+            "d": d,
+            "D": None if annual else big_d,
         }
     )
+    # the frequency these settings were chosen for (see app.analysis.bench_for_frequency)
+    bench[FREQUENCY_KEY] = frequency
     new = changed_selection(data, bench=bench, transform=transform)
     return [_request(resolve_selection(new)), new, None]
 
@@ -309,6 +332,30 @@ def render(
     return _searched(_arrival_request(request, data))
 
 
+def differences_text(search: fc.Comparison, bench: Mapping[str, Any] | None) -> str:
+    """The differences a search used and where they came from, e.g. "d = 1 (set here)".
+
+    Parameters
+    ----------
+    search : Comparison
+        The search (its ``settings`` hold the ``d`` and ``D`` used).
+    bench : Mapping, optional
+        The Model Bench settings asked for (``d``, ``D``: None when automatic).
+    """
+    b = bench_settings(bench)
+    s = search.settings
+    text = f"d = {s.get('d')}"
+    seasonal = bool(s.get("seasonal"))
+    if seasonal:
+        text += f", D = {s.get('D') or 0}"
+    fixed = [k for k in ("d", "D") if b[k] is not None and (k == "d" or seasonal)]
+    if not fixed:
+        return text + " (from the stationarity tests)"
+    if len(fixed) == 2 or not seasonal:
+        return text + " (set here)"
+    return text + f" ({fixed[0]} set here, {'D' if fixed[0] == 'd' else 'd'} from the stationarity tests)"
+
+
 def _searched(request: Mapping[str, Any]) -> list[Any]:
     search = search_for(request)
     picked = chosen_candidate(search, request.get("model"))
@@ -318,6 +365,7 @@ def _searched(request: Mapping[str, Any]) -> list[Any]:
         f"{search.observations} {search.frequency} values, transform "
         f"{search.transform.name}"
         + (f" (lambda {search.transform.lam:.2f})" if search.transform.lam is not None else "")
+        + f", {differences_text(search, request.get('bench'))}"
         + f"; {n_ok} candidate{'s' if n_ok != 1 else ''} accepted, {len(search.rejected)} rejected. "
         f"Best by AICc: {search.best.label}.",
         *_warnings(search.warnings),
