@@ -52,6 +52,12 @@ def build_parser() -> argparse.ArgumentParser:
     )
     check.add_argument("file", metavar="FILE", help="CSV, TSV or .xlsx file (wide or long layout)")
     check.add_argument("--json", action="store_true", help="print the report as JSON")
+    check.add_argument(
+        "--transform",
+        choices=TRANSFORMS,
+        default="auto",
+        help="scale of the stationarity tests (default auto, the scale forecasts and the app use)",
+    )
 
     fc = sub.add_parser("forecast", help="compare models for one series and forecast it")
     fc.add_argument("file", metavar="FILE", help="CSV, TSV or .xlsx file (wide or long layout)")
@@ -105,15 +111,22 @@ def build_parser() -> argparse.ArgumentParser:
 # ---------------------------------------------------------------------------------------------
 
 
-def _stationarity(table: Table) -> dict[str, tuple[Any, str | None]]:
-    """Series name -> (StationarityReport or None, note when it could not be assessed)."""
+def _stationarity(table: Table, transform: str = "auto") -> dict[str, tuple[Any, str | None]]:
+    """Series name -> (StationarityReport or None, note when it could not be assessed).
+
+    The tests run on the scale ``transform`` gives; ``auto`` is resolved per series with
+    ``choose_transform`` first and its name passed on, as the app's Intake does, so ``check``
+    and the app reach the same d and D.
+    """
     from forecasting_core._results import InputError
     from forecasting_core._stationarity import assess_stationarity
+    from forecasting_core._transform import choose_transform
 
     out: dict[str, tuple[Any, str | None]] = {}
     for name, series in table.series.items():
         try:
-            out[name] = (assess_stationarity(series), None)
+            scale = choose_transform(series, transform).name if transform == "auto" else transform
+            out[name] = (assess_stationarity(series, transform=scale), None)
         except NotImplementedError:
             out[name] = (None, "stationarity checks are not available in this version")
         except InputError as exc:
@@ -121,9 +134,9 @@ def _stationarity(table: Table) -> dict[str, tuple[Any, str | None]]:
     return out
 
 
-def check_report(table: Table) -> dict[str, Any]:
-    """The ``check --json`` object of the design contract."""
-    reports = _stationarity(table)
+def check_report(table: Table, transform: str = "auto") -> dict[str, Any]:
+    """The ``check --json`` object of the design contract (stationarity on ``transform``'s scale)."""
+    reports = _stationarity(table, transform)
     body = table.to_dict()
     for item in body["series"]:
         report, note = reports.get(item["name"], (None, None))
@@ -133,10 +146,18 @@ def check_report(table: Table) -> dict[str, Any]:
     return body
 
 
-def check_text(table: Table) -> str:
-    """The readable ``check`` report."""
+def check_text(table: Table, transform: str = "auto") -> str:
+    """The readable ``check`` report (stationarity on ``transform``'s scale)."""
     lines = [table.summary()]
-    reports = _stationarity(table)
+    reports = _stationarity(table, transform)
+    if table.series:
+        lines.append("")
+        lines.append(
+            "Stationarity is tested on the scale forecasts use (log when every value is positive "
+            "and the spread grows with the level; the app's Automatic transform)."
+            if transform == "auto"
+            else f"Stationarity is tested with transform {transform} (--transform {transform})."
+        )
     for name in table.series:
         report, note = reports.get(name, (None, "not run"))
         lines.append("")
@@ -163,9 +184,13 @@ def _cli_check(args: argparse.Namespace) -> int:
 
     table = read_table(args.file)
     if args.json:
-        print(json.dumps(check_report(table), indent=2, ensure_ascii=False, allow_nan=False))
+        print(
+            json.dumps(
+                check_report(table, args.transform), indent=2, ensure_ascii=False, allow_nan=False
+            )
+        )
     else:
-        print(check_text(table))
+        print(check_text(table, args.transform))
     return EXIT_OK if table.series else EXIT_UNUSABLE
 
 

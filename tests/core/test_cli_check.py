@@ -220,7 +220,7 @@ def test_check_never_prints_a_traceback_on_any_corpus_file(as_json, monkeypatch,
     # and the report on every malformed file.
     import forecasting_core.__main__ as cli
 
-    monkeypatch.setattr(cli, "_stationarity", lambda table: {})
+    monkeypatch.setattr(cli, "_stationarity", lambda table, transform="auto": {})
     files = sorted(BAD.iterdir())
     assert len(files) >= 25
     for path in files:
