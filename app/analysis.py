@@ -179,6 +179,40 @@ def compare_kwargs(bench: Mapping[str, Any], transform: str) -> dict[str, Any]:
     return out
 
 
+def differences_words(
+    settings: Mapping[str, Any], bench: Mapping[str, Any] | None, where: str = "on the Model Bench"
+) -> str:
+    """The differences a comparison used and where they came from.
+
+    Parameters
+    ----------
+    settings : Mapping
+        ``Comparison.settings`` (the ``d``, ``D`` and ``seasonal`` used).
+    bench : Mapping, optional
+        The Model Bench settings asked for (``d``, ``D``: None when automatic).
+    where : str
+        How a fixed value is described: "set {where}".
+
+    Returns
+    -------
+    str
+        e.g. "d = 1 (from the stationarity tests)", "d = 0 (set on the Model Bench)" or
+        "d = 0, D = 1 (d set here, D from the stationarity tests)".
+    """
+    b = bench_settings(bench)
+    text = f"d = {settings.get('d')}"
+    seasonal = bool(settings.get("seasonal"))
+    if seasonal:
+        text += f", D = {settings.get('D') or 0}"
+    fixed = [k for k in ("d", "D") if b[k] is not None and (k == "d" or seasonal)]
+    if not fixed:
+        return text + " (from the stationarity tests)"
+    if len(fixed) == 2 or not seasonal:
+        return text + f" (set {where})"
+    other = "D" if fixed[0] == "d" else "d"
+    return text + f" ({fixed[0]} set {where}, {other} from the stationarity tests)"
+
+
 def comparison_key(sel: Mapping[str, Any]) -> tuple[str, str, str]:
     """(dataset id, series, settings JSON): what the memoized comparison is keyed on."""
     if not sel.get("dataset_id") or not sel.get("series"):

@@ -15,7 +15,7 @@ from dash import Input, Output, State, callback, dcc
 from dash.exceptions import PreventUpdate
 
 from app import board_saved, export, figures, saved, saved_views
-from app.analysis import board_state
+from app.analysis import board_state, differences_words
 from app.board_views import fan_figure, prob_figure, series_notes
 from app.record_views import RecordData, record_data
 from app.state import SELECTION_ID
@@ -50,6 +50,7 @@ def download_csv(
         dataset_name=state["dataset_name"],
         analysis=export_analysis(state),
         data=series_notes(state),
+        differences=_differences(state),
     )
     name = f"{safe_name(state['forecast'].series_name)}_forecast.csv"
     return [dcc.send_string(text, name, type="text/csv"), None]
@@ -104,9 +105,15 @@ def download_html(
         record_scored_on=past.scored_on if past is not None else "",
         record_newer=past.newer if past is not None else False,
         data=series_notes(state),
+        settings={**comparison.settings, "differences_words": _differences(state)},
     )
     name = f"{safe_name(forecast.series_name)}_report.html"
     return [dcc.send_string(page, name, type="text/html"), None]
+
+
+def _differences(state: Mapping[str, Any]) -> str:
+    """The differences used and where they came from (the tests, or fixed on the Model Bench)."""
+    return differences_words(state["comparison"].settings, state["selection"].get("bench"))
 
 
 def export_analysis(state: Mapping[str, Any]) -> dict[str, Any] | None:

@@ -174,6 +174,7 @@ def forecast_csv(
     dataset_name: str | None = None,
     analysis: Mapping[str, Any] | None = None,
     data: Sequence[str] = (),
+    differences: str = "",
 ) -> str:
     """The forecast table as CSV text with a commented header.
 
@@ -182,7 +183,8 @@ def forecast_csv(
     given (see :func:`analysis_lines`), then every caution: the general ones, then those the
     board shows for this forecast (:func:`app.wording.specific_notes`: ``hindcast:``,
     ``caution:``, ``residuals:``, ``warning:`` lines, and ``data:`` lines for ``data``, the
-    notes on the series' data from :func:`app.wording.data_notes`). Then one row per step: ``time, step,
+    notes on the series' data from :func:`app.wording.data_notes`); ``differences`` (when given,
+    e.g. "d = 0 (set on the Model Bench)") is a ``differences:`` line. Then one row per step: ``time, step,
     mean, median, lo{level}, hi{level}, ..., prob_below_reference`` (probability 0..1, empty
     without a reference level). Every cell goes through :func:`neutralise_cell`.
 
@@ -197,6 +199,9 @@ def forecast_csv(
     )
     header = ["Haulcast forecast"]
     header += [f"{key}: {value}" for key, value in meta.items() if value != ""]
+    if differences:
+        # where d (and D) came from: the stationarity tests or the Model Bench
+        header.append(f"differences: {differences}")
     if analysis is not None:
         header += analysis_lines(analysis)
     header += [f"caution: {c}" for c in (forecast.cautions or CAUTIONS)]

@@ -79,7 +79,10 @@ def settings_rows(
             out["Orders searched"] = text
         elif "seasonal" in s:
             out["Seasonal terms"] = "searched" if s["seasonal"] else "not searched"
-    if s.get("d") is not None:
+    if s.get("differences_words"):
+        # where they came from, as the board knows it (app.analysis.differences_words)
+        out["Differences"] = str(s["differences_words"])
+    elif s.get("d") is not None:
         how = " (from the stationarity tests)" if s.get("stationarity") else ""
         text = f"d = {s['d']}"
         if s.get("seasonal") or s.get("D"):

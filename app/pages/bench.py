@@ -36,6 +36,7 @@ from app.analysis import (
     chosen_candidate,
     comparison_for,
     comparison_key,
+    differences_words,
     search_for,
 )
 from app.bench_panels import panels
@@ -342,18 +343,7 @@ def differences_text(search: fc.Comparison, bench: Mapping[str, Any] | None) -> 
     bench : Mapping, optional
         The Model Bench settings asked for (``d``, ``D``: None when automatic).
     """
-    b = bench_settings(bench)
-    s = search.settings
-    text = f"d = {s.get('d')}"
-    seasonal = bool(s.get("seasonal"))
-    if seasonal:
-        text += f", D = {s.get('D') or 0}"
-    fixed = [k for k in ("d", "D") if b[k] is not None and (k == "d" or seasonal)]
-    if not fixed:
-        return text + " (from the stationarity tests)"
-    if len(fixed) == 2 or not seasonal:
-        return text + " (set here)"
-    return text + f" ({fixed[0]} set here, {'D' if fixed[0] == 'd' else 'd'} from the stationarity tests)"
+    return differences_words(search.settings, bench, where="here")
 
 
 def _searched(request: Mapping[str, Any]) -> list[Any]:

@@ -305,3 +305,19 @@ def test_run_with_unchanged_settings_keeps_the_model_picked_in_a_saved_analysis(
     assert new["bench"]["frequency"] == "annual"
     assert new["model"] == "ARIMA(0,1,1)" and new["analysis"] == "b" * 32
     assert changed["model"] is None
+
+
+@pytest.mark.parametrize(("d", "said"), [(0, "d = 0 (set on the Model Bench)"), (None, "(from the stationarity tests)")])
+def test_the_exports_say_where_d_came_from(app, nile_id, d, said):
+    from app import board_exports
+
+    start = {"dataset_id": nile_id, "series": "nile", "uploads": [nile_id]}
+    with app.server.test_request_context():
+        _request, sel = _run(start, max_p=1, max_q=1, d="auto" if d is None else d)
+        csv_file, alert = board_exports.download_csv(1, None, sel, None)
+        assert alert is None
+        html_file, alert = board_exports.download_html(1, None, sel, None)
+        assert alert is None
+    lines = [line for line in csv_file["content"].splitlines() if line.startswith("# differences:")]
+    assert len(lines) == 1 and said in lines[0]
+    assert "Differences" in html_file["content"] and said in html_file["content"]
