@@ -118,12 +118,17 @@ def _better_benchmarks(comparison: Comparison) -> list[str]:
         return []
     out = []
     for s in h.scores:
-        if s.kind == "benchmark" and s.model != "last value" and math.isfinite(s.mase):
-            if round(s.mase, 2) < round(mine.mase, 2):  # a difference the message can show
-                out.append(
-                    f"On the hindcast the {s.model} benchmark scored a lower MASE than "
-                    f"{mine.model} ({s.mase:.2f} vs {mine.mase:.2f})."
-                )
+        if s.kind != "benchmark" or s.model == "last value":
+            continue
+        # on the forecasts both made (the pair the Bench and the Board show)
+        pair = h.versus(s.model, mine.model)
+        a, b = (pair[0].mase, pair[1].mase) if pair is not None else (mine.mase, s.mase)
+        if math.isfinite(a) and math.isfinite(b) and round(b, 2) < round(a, 2):
+            size = f", errors {100.0 * (1.0 - b / a):.0f}% smaller" if a > 0 else ""
+            out.append(
+                f"On the hindcast the {s.model} benchmark scored a lower MASE than "
+                f"{mine.model} on the same forecasts ({b:.2f} vs {a:.2f}{size})."
+            )
     return out
 
 

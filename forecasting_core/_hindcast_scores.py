@@ -191,6 +191,51 @@ def errors_frame(blocks: Mapping[str, Block]) -> pd.DataFrame:
     return pd.DataFrame(columns, columns=ERROR_COLUMNS)
 
 
+def _same_forecasts(mine: Block, naive: Block) -> bool:
+    """Whether two models forecast the same medians at every (origin, step) both forecast."""
+    theirs = {
+        k: v
+        for k, v in zip(
+            zip(naive["origin"].tolist(), naive["step"].tolist(), strict=True),
+            naive["median"].tolist(),
+            strict=True,
+        )
+    }
+    pairs = [
+        (v, theirs[k])
+        for k, v in zip(
+            zip(mine["origin"].tolist(), mine["step"].tolist(), strict=True),
+            mine["median"].tolist(),
+            strict=True,
+        )
+        if k in theirs
+    ]
+    if not pairs:
+        return False
+    a, b = np.array(pairs, dtype=float).T
+    return bool(np.allclose(a, b, rtol=1e-9, atol=0.0))
+
+
+def _better_benchmarks_clause(
+    chosen: str, naive: str, paired: Sequence[tuple[SkillScore, SkillScore]]
+) -> str:
+    """' But the X benchmark did better ...' for benchmarks beside the last value that beat
+    ``chosen`` on MASE (to the two decimals shown) on the forecasts both made; '' if none."""
+    better = []
+    for a, b in paired:
+        if a.model != chosen or b.kind != "benchmark" or b.model == naive:
+            continue
+        if math.isfinite(a.mase) and math.isfinite(b.mase) and round(b.mase, 2) < round(a.mase, 2):
+            pct = 100.0 * (1.0 - b.mase / a.mase) if a.mase > 0 else math.nan
+            size = f"errors {pct:.0f}% smaller, " if math.isfinite(pct) and pct >= 0.5 else ""
+            better.append(f"the {b.model} benchmark ({size}MASE {b.mase:.2f} vs {a.mase:.2f})")
+    if not better:
+        return ""
+    names = better[0] if len(better) == 1 else ", ".join(better[:-1]) + " and " + better[-1]
+    verb = "did" if len(better) == 1 else "each did"
+    return f" But on the same past forecasts {names} {verb} better than {chosen}."
+
+
 def verdict(
     chosen: str,
     naive: str,
@@ -220,6 +265,11 @@ def verdict(
     where = f"over {k} origin{'s' if k != 1 else ''}"
     if not (math.isfinite(a) and math.isfinite(b)) or b == 0:
         text = f"{chosen} could not be compared with the last value on MASE {where}."
+    elif _same_forecasts(mine, blocks[naive]):
+        text = (
+            f"{chosen} makes the same forecasts as the last value here (MASE {a:.2f} {where}): "
+            "it adds nothing to that benchmark's forecast."
+        )
     elif a < b:
         pct = 100.0 * (1.0 - a / b)
         by = f"by {pct:.0f}%" if pct >= 0.5 else "by less than 1%"
@@ -230,6 +280,7 @@ def verdict(
         text = (
             f"{chosen} did not beat the last value on MASE {where} ({a:.2f} vs {b:.2f}, {worse})."
         )
+    text += _better_benchmarks_clause(chosen, naive, paired)
     mine_skips = [s for s in skipped if s.startswith(chosen + " ")]
     if mine_skips:
         text += (

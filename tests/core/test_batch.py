@@ -133,8 +133,12 @@ def test_a_benchmark_that_beats_the_chosen_model_is_a_warning():
     notes = _better_benchmarks(SimpleNamespace(best=drift, hindcast=h))
     assert len(notes) == 1
     assert notes[0].startswith(
-        "On the hindcast the long-run mean benchmark scored a lower MASE than last value + drift ("
+        "On the hindcast the long-run mean benchmark scored a lower MASE than last value + drift "
+        "on the same forecasts ("
     )
+    # the figures are the pair the Bench and the Board show (scored on the forecasts both made)
+    a, b = h.versus("long-run mean", "last value + drift")
+    assert f"({b.mase:.2f} vs {a.mase:.2f}, errors " in notes[0]
 
 
 def test_records_come_back_in_file_order_with_a_bounded_window(small_file):

@@ -173,9 +173,34 @@ def test_rejected_refit_is_recorded_skipped_and_named_in_the_verdict(monkeypatch
     assert "failed at 1 of 3 origins" in h.verdict
     # The last value is added for the verdict and scored on the same origins and steps.
     assert [x.model for x in h.scores] == ["ARIMA(0,1,0)", "last value"]
-    # The stand-in forecasts the last value, so the two tie on the common origins.
-    assert h.verdict.startswith("ARIMA(0,1,0) did not beat the last value on MASE over 2 origins (")
-    assert "equal within 1%" in h.verdict
+    # The stand-in forecasts the last value, so the verdict says it is that forecast.
+    assert h.verdict.startswith(
+        "ARIMA(0,1,0) makes the same forecasts as the last value here (MASE "
+    )
+    assert "over 2 origins" in h.verdict
+    assert "did not beat" not in h.verdict
+
+
+def test_verdict_names_a_benchmark_that_did_better_on_the_same_forecasts():
+    # White noise around 100 (seeded): the long-run mean must beat last value + drift (for a
+    # stationary series the mean is the better forecast: common practice), and the verdict about
+    # last value + drift must say so, with the figures of the paired scores.
+    from forecasting_core._benchmarks import fit_benchmark
+
+    rng = np.random.default_rng(3)
+    y = pd.Series(100 + rng.normal(0, 5, 40), index=pd.period_range("1986", periods=40, freq="Y"))
+    drift, mean = fit_benchmark(y, "drift"), fit_benchmark(y, "mean")
+    h = run_hindcast(y, [drift, mean], horizon=3)
+    a, b = h.versus("long-run mean", "last value + drift")
+    assert b.mase < a.mase
+    assert (
+        f"But on the same past forecasts the long-run mean benchmark (errors "
+        f"{100 * (1 - b.mase / a.mase):.0f}% smaller, MASE {b.mase:.2f} vs {a.mase:.2f}) did better "
+        "than last value + drift."
+    ) in h.verdict
+    # and nothing of the kind when the chosen model is the best
+    h2 = run_hindcast(y, [mean, drift], horizon=3)
+    assert "did better" not in h2.verdict
 
 
 def test_failed_origin_is_left_out_of_both_sides_of_every_comparison(monkeypatch):
