@@ -141,7 +141,7 @@ def settings_panel() -> html.Section:
                     dcc.Input(
                         id="bench-origins", min=1, max=40, value=None, placeholder="auto", **number
                     ),
-                    hint="Blank: the last min(10, n/4) years.",
+                    hint="Blank: the last min(10, n/4) periods as origins.",
                 ),
                 field(
                     "Horizon",

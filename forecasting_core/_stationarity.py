@@ -464,7 +464,8 @@ def _verdict(
     if gaps:
         unit = _UNIT[freq][0 if len(gaps) == 1 else 1]
         parts.append(
-            f"The series has {len(gaps)} missing {unit} ({', '.join(gaps)}); they were filled by "
+            f"The series has {len(gaps)} missing {unit} ({', '.join(gaps)}); "
+            f"{'it was' if len(gaps) == 1 else 'they were'} filled by "
             f"straight-line interpolation for the tests and correlograms only, and stay missing in the "
             f"differenced series and the model."
         )
