@@ -129,7 +129,9 @@ def details(state: Mapping[str, Any]) -> list[Any]:
     if diag is not None:
         parts.append(html.P([html.Strong("Residuals: "), diag.verdict]))
     for w in (*forecast.warnings, *comparison.warnings):
-        parts.append(html.Div(w, className="hc-alert hc-alert--warning", role="note"))
+        parts.append(
+            html.Div(wording.shown_warning(w), className="hc-alert hc-alert--warning", role="note")
+        )
     for note in series_notes(state):
         parts.append(
             html.Div(note, className="hc-alert hc-alert--warning board-data-note", role="note")
@@ -181,6 +183,16 @@ def graph(graph_id: str, name: str, height: int) -> dcc.Graph:
 
 
 def reference_notes(forecast: fc.Forecast) -> Any:
-    """The core's notes on an implausible reference level, shown beside the forecast."""
-    notes = [w for w in forecast.warnings if "reference level" in w]
-    return alert(" ".join(notes), "warning", title="Reference level") if notes else None
+    """The core's notes beside the forecast: band ends shown as 0, an implausible reference level.
+
+    Each kind has its own banner and title; the note on clipping at 0 says what "Expected"
+    means at the clipped periods.
+    """
+    clip = [wording.shown_warning(w) for w in forecast.warnings if wording.is_clip_note(w)]
+    ref = [w for w in forecast.warnings if "reference level" in w and not wording.is_clip_note(w)]
+    out = []
+    if clip:
+        out.append(alert(" ".join(clip), "warning", title="Never below zero"))
+    if ref:
+        out.append(alert(" ".join(ref), "warning", title="Reference level"))
+    return html.Div(out) if out else None

@@ -34,7 +34,14 @@ from app.report_parts import (
     table_html,
     when,
 )
-from app.wording import forecast_summary, hindcast_sentence, residual_report, specific_notes
+from app.wording import (
+    MAE_RMSE_NOTE,
+    forecast_summary,
+    hindcast_sentence,
+    residual_report,
+    shown_warning,
+    specific_notes,
+)
 from forecasting_core import CAUTIONS, Comparison, Forecast, ForecastRecord, time_label
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -342,13 +349,14 @@ def report_html(
                     f"<p>{e(forecast.model)}: {e(hindcast_sentence(paired, forecast.model))}</p>"
                 )
             parts.append(table_html(skill, left_cols=("model",)))
+            parts.append(f"<p class='sub'>{e(MAE_RMSE_NOTE)}</p>")
         parts.append("<h2>Best candidates by AICc</h2>")
         parts.append(table_html(candidates_frame(comparison), left_cols=("model",)))
         diag = residual_report(comparison, forecast.model)
         if diag is not None and diag.verdict:
             parts.append(f"<p>Residual checks ({e(diag.model)}): {e(diag.verdict)}</p>")
     for w in forecast.warnings + (comparison.warnings if comparison is not None else ()):
-        parts.append(f"<p><strong>Warning:</strong> {e(w)}</p>")
+        parts.append(f"<p><strong>Warning:</strong> {e(shown_warning(w))}</p>")
     for note in data:
         parts.append(f"<p><strong>Data:</strong> {e(note)}</p>")
     parts.append("<h2>What produced this forecast</h2>")

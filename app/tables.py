@@ -152,7 +152,8 @@ def candidates_table() -> dash_table.DataTable:
     )
 
 
-def skill_table() -> dash_table.DataTable:
+def skill_table() -> html.Div:
+    """The hindcast skill table (id ``bench-skill``) with the note on MAE and RMSE below it."""
     pct = Format(precision=0, scheme=Scheme.fixed, symbol=Symbol.yes, symbol_suffix="%")
     columns = [
         {"name": "Model", "id": "model"},
@@ -185,8 +186,20 @@ def skill_table() -> dash_table.DataTable:
         for c in columns
         if c.get("type") == "numeric"
     ]
-    return dash_table.DataTable(
-        id="bench-skill", columns=columns, data=[], sort_action="native", **style
+    style["style_table"] = {"overflowX": "auto", "maxWidth": "100%"}
+    table = dash_table.DataTable(
+        id="bench-skill",
+        columns=columns,
+        data=[],
+        sort_action="native",
+        tooltip_header={"mae": wording.MAE_TIP, "rmse": wording.RMSE_TIP},
+        tooltip_delay=0,
+        tooltip_duration=None,
+        **style,
+    )
+    return html.Div(
+        [table, html.P(wording.MAE_RMSE_NOTE, className="hc-figure-note", id="bench-skill-note")],
+        className="hc-skill-wrap",
     )
 
 

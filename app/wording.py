@@ -14,6 +14,36 @@ from forecasting_core import Comparison, Forecast, SeriesInfo, SkillScore
 #: The benchmark the chosen model is measured against in the summary.
 LAST_VALUE = "last value"
 
+#: Why a skill table can show RMSE below MAE: absolute error is scored on the median forecast
+#: and squared error on the mean (each is the point forecast its loss is consistent for:
+#: Gneiting 2011, "Making and evaluating point forecasts", JASA 106, 746-762).
+MAE_RMSE_NOTE = (
+    "MAE scores the median forecast, RMSE the mean; with a transform they differ, "
+    "so RMSE can be below MAE."
+)
+#: Added after the core's note on band ends clipped at 0: there the mean ("Expected") is the
+#: mean of max(Y, 0), so it can sit above the median.
+CLIP_MEAN_NOTE = (
+    "Expected values at those periods are the averages of the clipped distribution, so they "
+    "can be above the median."
+)
+
+
+def is_clip_note(text: str) -> bool:
+    """Whether a core warning is the note on band ends shown as 0 (below zero)."""
+    return "went below zero" in text
+
+
+def shown_warning(text: str) -> str:
+    """A core warning as the app shows it: the clipping note gets :data:`CLIP_MEAN_NOTE`."""
+    if is_clip_note(text) and CLIP_MEAN_NOTE not in text:
+        return f"{text} {CLIP_MEAN_NOTE}"
+    return text
+
+
+MAE_TIP = "Mean absolute error of the median forecast (original scale)."
+RMSE_TIP = "Root mean squared error of the mean forecast (original scale); it can be below MAE."
+
 
 def fmt_value(x: float | None, unit: str | None = None) -> str:
     """Format a value for reading aloud: ``12,340 t``, ``45.6 t``, ``0.123``.
@@ -83,32 +113,47 @@ def hindcast_sentence(comparison: Comparison | None, model: str) -> str:
         )
         better = benchmark_sentence(comparison, model)
         return f"{text} {better}" if better else text
-    # MASE ratio: the same measure as the hindcast verdict on the Model Bench
+    # MASE ratio and rounding: the same as the hindcast verdict on the Model Bench (below 0.5%
+    # it says "by less than 1%" or "equal within 1%", else the whole percent)
     change = 1.0 - mine.mase / naive.mase
+    worse = mine.mase / naive.mase - 1.0
     period = {"quarterly": "quarter", "monthly": "month"}.get(comparison.frequency, "year")
     years = f"each of the last {n} {period}s" if n != 1 else f"the last {period}"
-    if abs(change) < 0.02:
-        text = f"Replayed from {years}, it did about as well as simply repeating the last observed value."
-    elif change > 0:
+    did_not_beat = False
+    if change > 0:
+        size = f"{100 * change:.0f}%" if 100 * change >= 0.5 else "less than 1%"
         text = (
-            f"Replayed from {years}, its errors were {100 * change:.0f}% smaller than simply "
+            f"Replayed from {years}, its errors were {size} smaller than simply "
             "repeating the last observed value."
         )
+    elif 100 * worse < 0.5:
+        text = (
+            f"Replayed from {years}, it did about as well as simply repeating the last observed "
+            "value (within 1%)."
+        )
+        did_not_beat = True
     else:
         text = (
-            f"Replayed from {years}, its errors were {100 * -change:.0f}% larger than simply "
+            f"Replayed from {years}, its errors were {100 * worse:.0f}% larger than simply "
             "repeating the last observed value, so treat it with care."
         )
-    better = benchmark_sentence(comparison, model)
+        did_not_beat = True
+    better = benchmark_sentence(comparison, model, also=did_not_beat)
     return f"{text} {better}" if better else text
+
+
+#: A benchmark is named as better when its MASE is lower by at least this share (the model's
+#: MASE is at least 0.5% above it, so the Benchmarks table shows it as at least "1% worse").
+BETTER_BY = 0.005
 
 
 def better_benchmarks(comparison: Comparison | None, model: str) -> list[tuple[str, float, float]]:
     """Benchmarks other than the last value with a lower hindcast MASE than ``model``.
 
     Each is compared with ``model`` on the forecasts both made (``Hindcast.versus``; its own
-    scores when the hindcast has no pairs). A benchmark counts when its MASE is lower to the
-    two decimals shown, the rule of the command line's warning.
+    scores when the hindcast has no pairs). A benchmark counts when ``model``'s MASE is at
+    least :data:`BETTER_BY` (0.5%) above it: the Benchmarks table then shows the model as at
+    least "1% worse".
 
     Returns
     -------
@@ -125,33 +170,50 @@ def better_benchmarks(comparison: Comparison | None, model: str) -> list[tuple[s
         pair = hc.versus(s.model, model)
         mine, theirs = pair if pair is not None and pair[0].forecasts else (hc.score(model), s)
         a, b = float(theirs.mase), float(mine.mase)
-        if math.isfinite(a) and math.isfinite(b) and round(a, 2) < round(b, 2):
+        if math.isfinite(a) and math.isfinite(b) and a > 0 and b / a - 1.0 >= BETTER_BY:
             out.append((s.model, a, b))
     return sorted(out, key=lambda t: t[1])
 
 
-def benchmark_sentence(comparison: Comparison | None, model: str) -> str:
+def benchmark_sentence(comparison: Comparison | None, model: str, also: bool = False) -> str:
     """The plain warning when a benchmark did better than ``model`` on the hindcast, else ``""``.
 
-    E.g. "But on the same past forecasts the long-run mean benchmark did better: its errors
-    were 5% smaller (MASE 0.93 vs 0.98), so consider it." (MASE ratio, as the verdict.)
+    E.g. "But on the same past forecasts the long-run mean benchmark did better than this
+    model (errors 5% smaller, MASE 0.93 vs 0.98): consider using that benchmark's forecast, or
+    check why the model does worse." With ``also`` (the model did not beat the last value
+    either): "The long-run mean benchmark also did better (...)".
     """
     found = better_benchmarks(comparison, model)
     if not found:
         return ""
+
+    def size(a: float, b: float) -> str:
+        pct = 100 * (1 - a / b)
+        return f"{pct:.0f}%" if pct >= 0.5 else "less than 1%"
+
     parts = [
-        f"the {label} benchmark (errors {100 * (1 - a / b):.0f}% smaller, MASE {a:.2f} vs {b:.2f})"
+        f"the {label} benchmark (errors {size(a, b)} smaller, MASE {a:.2f} vs {b:.2f})"
         for label, a, b in found
     ]
+    advice = (
+        "consider using that benchmark's forecast, or check why the model does worse"
+        if len(parts) == 1
+        else "consider using one of those benchmarks' forecasts, or check why the model does worse"
+    )
+    listed = parts[0] if len(parts) == 1 else ", ".join(parts[:-1]) + " and " + parts[-1]
+    if also:
+        also_parts = [
+            f"the {label} benchmark also did better (errors {size(a, b)} smaller, MASE "
+            f"{a:.2f} vs {b:.2f})"
+            for label, a, b in found
+        ]
+        joined = "; ".join(also_parts)
+        return f"{joined[0].upper()}{joined[1:]}: {advice}."
     if len(parts) == 1:
-        return (
-            f"But on the same past forecasts {parts[0]} did better than this model, so weigh "
-            "it before relying on the model."
-        )
-    listed = ", ".join(parts[:-1]) + " and " + parts[-1]
+        return f"But on the same past forecasts {parts[0]} did better than this model: {advice}."
     return (
         f"But on the same past forecasts {len(parts)} benchmarks did better than this model: "
-        f"{listed}; weigh them before relying on the model."
+        f"{listed}; {advice}."
     )
 
 
@@ -370,6 +432,6 @@ def specific_notes(
     for w in (*forecast.warnings, *(comparison.warnings if comparison is not None else ())):
         if w not in seen:
             seen.add(w)
-            out.append(("warning", w))
+            out.append(("warning", shown_warning(w)))
     out += [("data", text) for text in data]
     return out
