@@ -43,6 +43,12 @@ FREQUENCY_SETTINGS = ("seasonal", "D", "horizon", "origins")
 #: The key in ``hc-selection["bench"]`` naming the frequency the settings were chosen for
 #: (written by the Model Bench's "Run"; not a setting, so :func:`bench_settings` drops it).
 FREQUENCY_KEY = "frequency"
+#: The key in ``hc-selection["bench"]`` naming the series the settings were chosen for, as
+#: ``[dataset id, series name]`` (written with them: see :func:`stamp_bench`). A hand-set
+#: d or D belongs to that series only (see :func:`bench_for_series`).
+SERIES_KEY = "for_series"
+#: Keys of ``hc-selection["bench"]`` that say what the settings were made for (no settings).
+MARKER_KEYS = (FREQUENCY_KEY, SERIES_KEY)
 _PERIOD_WORDS = {"annual": ("year", "years"), "quarterly": ("quarter", "quarters"), "monthly": ("month", "months")}
 SEARCH_LABELS = {
     "auto": "Automatic (every order; stepwise with seasonal terms)",
@@ -155,6 +161,127 @@ def bench_for_frequency(
     if bench.get("origins") is not None:
         parts.append("Hindcast origins back to automatic.")
     return out, " ".join(parts)
+
+
+def series_frequency(dataset_id: Any, series: Any, store: Any | None = None) -> str | None:
+    """The frequency of a stored series ("annual", "quarterly", "monthly"); None when unknown.
+
+    Parameters
+    ----------
+    dataset_id, series : str
+        The dataset (content hash, see :mod:`app.store`) and the series' name in it.
+    store : DatasetStore, optional
+        Defaults to the running app's store (inside a callback).
+    """
+    if not dataset_id or not series:
+        return None
+    try:
+        if store is None:
+            from app.store import get_store
+
+            store = get_store()
+        info = store.load_table(str(dataset_id)).info.get(str(series))
+    except Exception:  # noqa: BLE001 - a dataset gone or unreadable: the frequency is unknown
+        return None
+    return info.frequency if info is not None else None
+
+
+def stamp_bench(
+    bench: Mapping[str, Any] | None,
+    dataset_id: Any,
+    series: Any,
+    frequency: str | None = None,
+    store: Any | None = None,
+) -> dict[str, Any] | None:
+    """``bench`` with the series (and its frequency) it is made for written beside it.
+
+    Whatever writes Model Bench settings into the session (the Bench's "Run", a saved
+    analysis opened) stamps them, so that :func:`bench_for_series` can tell when another
+    series is chosen later.
+
+    Parameters
+    ----------
+    bench : Mapping, optional
+        Model Bench settings (None stays None: the defaults, made for any series).
+    dataset_id, series : str
+        The series the settings are made for.
+    frequency : str, optional
+        Its frequency; looked up in the store when not given.
+    store : DatasetStore, optional
+        Defaults to the running app's store.
+    """
+    if not isinstance(bench, Mapping):
+        return None
+    out = dict(bench)
+    if dataset_id and series:
+        out[SERIES_KEY] = [str(dataset_id), str(series)]
+    if frequency is None:
+        frequency = series_frequency(dataset_id, series, store)
+    if frequency is not None:
+        out[FREQUENCY_KEY] = frequency
+    return out
+
+
+def bench_for_series(
+    bench: Mapping[str, Any] | None,
+    dataset_id: Any,
+    series: Any,
+    frequency: str | None,
+    store: Any | None = None,
+) -> tuple[dict[str, Any] | None, str | None]:
+    """The session's Model Bench settings for the chosen series, and a note when changed.
+
+    Two things do not carry over from the series the settings were made for (see
+    :data:`SERIES_KEY`) to another one: the settings tied to the frequency when the two
+    frequencies differ (:func:`bench_for_frequency`), and a d or D set by hand (numbers of
+    differences belong to one series; they go back to Automatic). Settings that do not say
+    their frequency take it from the series they name; settings that name nothing are
+    taken to be this series'. The result is stamped for the chosen series.
+
+    Parameters
+    ----------
+    bench : Mapping, optional
+        ``hc-selection["bench"]`` as stored (None: the defaults, nothing to change).
+    dataset_id, series : str or None
+        The chosen series.
+    frequency : str, optional
+        Its frequency (None: unknown).
+    store : DatasetStore, optional
+        For the frequency of the series the settings were made for, when they do not say it.
+
+    Returns
+    -------
+    (dict or None, str or None)
+        The settings and a note saying what was reset (None when nothing was).
+    """
+    if not isinstance(bench, Mapping):
+        return None, None
+    made_for = bench.get(SERIES_KEY)
+    here = [str(dataset_id), str(series)] if dataset_id and series else None
+    other = (
+        isinstance(made_for, list | tuple)
+        and len(made_for) == 2
+        and here is not None
+        and [str(x) for x in made_for] != here
+    )
+    out = dict(bench)
+    if out.get(FREQUENCY_KEY) is None and other:
+        # no frequency written beside the settings: the one of the series they were made for
+        out[FREQUENCY_KEY] = series_frequency(made_for[0], made_for[1], store)
+        if out[FREQUENCY_KEY] is None:
+            del out[FREQUENCY_KEY]
+    out, note = bench_for_frequency(out, frequency)
+    notes = [note] if note else []
+    hand = [k for k in ("d", "D") if out.get(k) not in (None, "auto")]
+    if other and hand:
+        out.update({k: None for k in hand})
+        which = " and ".join(hand)
+        notes.append(
+            f"{which} {'were' if len(hand) > 1 else 'was'} set by hand for {made_for[1]}; "
+            f"back to Automatic for {series}."
+        )
+    out = stamp_bench(out, dataset_id, series, frequency or out.get(FREQUENCY_KEY), store)
+    return out, (" ".join(notes) or None)
 
 
 def compare_kwargs(bench: Mapping[str, Any], transform: str) -> dict[str, Any]:
@@ -323,4 +450,10 @@ def changed_selection(data: Mapping[str, Any] | None, **changes: Any) -> dict[st
     to no series).
     """
     resolved = {k: v for k, v in resolve_selection(data).items() if k != "is_demo"}
-    return update_selection(resolved, **changes)
+    out = update_selection(resolved, **changes)
+    if "bench" in changes and isinstance(out.get("bench"), Mapping):
+        # the settings written are made for the series chosen now (see bench_for_series)
+        same = (out["dataset_id"], out["series"]) == (resolved["dataset_id"], resolved["series"])
+        given = changes["bench"].get(FREQUENCY_KEY) if same else None
+        out["bench"] = stamp_bench(out["bench"], out["dataset_id"], out["series"], given)
+    return out

@@ -14,7 +14,7 @@ from collections.abc import Iterable, Mapping, Sequence
 from datetime import datetime
 from typing import Any
 
-from app.analysis import LEVELS, bench_settings
+from app.analysis import LEVELS, bench_settings, stamp_bench
 from app.state import update_selection
 
 #: The settings keys an analysis keeps (and compares when telling whether it was changed).
@@ -103,7 +103,9 @@ def selection_from_analysis(analysis: Any, data: Mapping[str, Any] | None = None
         dataset_id=get("dataset_id"),
         series=get("series"),
         transform=settings.get("transform") or "auto",
-        bench=bench_settings(settings.get("bench")),
+        # stamped with the analysis' series and its frequency (see app.analysis.stamp_bench),
+        # so a series chosen later resets what does not carry over to it
+        bench=stamp_bench(bench_settings(settings.get("bench")), get("dataset_id"), get("series")),
         model=settings.get("model") or get("model") or None,
         reference=settings.get("reference"),
         analysis=get("id"),

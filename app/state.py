@@ -69,9 +69,10 @@ def update_selection(data: Mapping[str, Any] | None, **changes: Any) -> dict[str
 
 
 def _settings_only(bench: Any) -> Any:
-    # the bench settings without the frequency they were run for (a note, not a setting)
+    # the bench settings without what they were made for (the frequency and the series are
+    # notes, not settings; see app.analysis.MARKER_KEYS)
     if isinstance(bench, Mapping):
-        return {k: v for k, v in bench.items() if k != "frequency"}
+        return {k: v for k, v in bench.items() if k not in ("frequency", "for_series")}
     return bench
 
 
@@ -93,8 +94,8 @@ def resolve_selection(data: Mapping[str, Any] | None, store: Any | None = None) 
         ``series`` is a usable series of it, else its first usable series (None when it has
         none); ``transform`` is one of :data:`TRANSFORMS`. The extra key ``"is_demo"`` is
         True when the demo was filled in; ``"bench_note"`` says which Model Bench settings
-        went back to their defaults because the series' frequency is not the one they were
-        chosen for (None when none did).
+        went back to their defaults because they were chosen for a series of another
+        frequency, or a d or D set by hand for another series (None when none did).
     """
     if store is None:
         from app.store import get_store
@@ -130,10 +131,13 @@ def resolve_selection(data: Mapping[str, Any] | None, store: Any | None = None) 
         frequency = info.frequency if info is not None else None
     else:
         out["series"] = None
-    # Model Bench settings made for a series of another frequency: those that depend on it
-    # go back to their defaults (app.analysis.bench_for_frequency), with a note saying so
-    from app.analysis import bench_for_frequency
+    # Model Bench settings made for another series: those that depend on the frequency go
+    # back to their defaults when it differs, a hand-set d or D back to Automatic
+    # (app.analysis.bench_for_series), with a note saying so
+    from app.analysis import bench_for_series
 
-    out["bench"], out["bench_note"] = bench_for_frequency(out["bench"], frequency)
+    out["bench"], out["bench_note"] = bench_for_series(
+        out["bench"], out["dataset_id"], out["series"], frequency, store
+    )
     out["is_demo"] = is_demo
     return out
