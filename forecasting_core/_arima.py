@@ -36,7 +36,16 @@ def one_blas_thread():
     The state-space filter multiplies tiny matrices; with a multi-threaded BLAS on a busy
     machine the threads contend and each likelihood evaluation became 50 to 100 times slower
     in our measurements (0.6 ms -> 55 ms on 2 shared cores). One thread is never slower here.
+
+    It also imports statsmodels first: its import puts "always" filters for its own warnings
+    in front of the filter list, which would overrule an "ignore" set earlier in the same
+    ``warnings.catch_warnings()`` block (the first fit of a process then printed
+    ConvergenceWarning and EstimationWarning lines). Used as
+    ``with warnings.catch_warnings(), one_blas_thread(): warnings.simplefilter("ignore")``,
+    the "ignore" comes after the import and wins.
     """
+    import statsmodels.tools.sm_exceptions  # noqa: F401 - see above
+
     global _CONTROLLER
     if _CONTROLLER is None:
         from threadpoolctl import ThreadpoolController

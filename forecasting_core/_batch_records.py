@@ -168,6 +168,11 @@ def forecast_record(
     if score is not None and (caution := score.coverage_warning()):
         warnings.append(caution)
     warnings.extend(w for w in _better_benchmarks(comparison) if w not in warnings)
+    diag = comparison.diagnostics
+    if diag is not None and diag.verdict and (
+        not diag.white_noise or "not normal" in diag.verdict or "Unusually large" in diag.verdict
+    ):  # the residual verdict, when it holds a caution (the Board's CSV has it too)
+        warnings.append(f"Residuals of {diag.model}: {diag.verdict}")
     record = {
         "series": comparison.series_name,
         "observations": comparison.observations,

@@ -53,7 +53,8 @@ def parse_ints(value: Any, count: int, option: str, example: str) -> tuple[int, 
     """``--order p,d,q`` / ``--seasonal P,D,Q,m``: comma-separated non-negative integers.
 
     Each number is checked against :data:`ORDER_RANGES`; the message names the option, the
-    number and what was given ("--order 9,3,9: d, the second number, must be ...").
+    number and what was given ("--order 9,3,9: d, the second number, must be ..."); every
+    number out of range is named in the one message.
     """
     if value is None:
         return None
@@ -67,14 +68,20 @@ def parse_ints(value: Any, count: int, option: str, example: str) -> tuple[int, 
             f"{example}. Got {value if isinstance(value, str) else ','.join(parts)!r} instead."
         )
     numbers = tuple(int(p) for p in parts)
-    for k, ((name, values), v) in enumerate(
-        zip(ORDER_RANGES.get(option, ()), numbers, strict=False)
-    ):
-        if v not in values:
-            raise InputError(
-                f"{option} {','.join(parts)}: {name}, the {_ORDINALS[k]} number, must be "
-                f"{_allowed(values)}. Got {v} instead."
-            )
+    bad = [
+        (f"{name}, the {_ORDINALS[k]} number, must be {_allowed(values)}", str(v))
+        for k, ((name, values), v) in enumerate(
+            zip(ORDER_RANGES.get(option, ()), numbers, strict=False)
+        )
+        if v not in values
+    ]
+    if bad:  # every bad number is named, not only the first
+        got = [v for _, v in bad]
+        given = got[0] if len(got) == 1 else ", ".join(got[:-1]) + " and " + got[-1]
+        raise InputError(
+            f"{option} {','.join(parts)}: {'; '.join(rule for rule, _ in bad)}. "
+            f"Got {given} instead."
+        )
     return numbers
 
 
@@ -187,6 +194,14 @@ def _pick_series(table, name: Any):
         from forecasting_core._batch import unusable_message
 
         raise InputError(unusable_message(table, name))
+    set_aside = [p for p in table.problems if p.column == name and p.severity == "error"]
+    if set_aside:  # e.g. a column whose rows have another frequency (_table_mixed)
+        from dataclasses import replace
+
+        from forecasting_core._batch import problem_text
+
+        detail = "; ".join(problem_text(replace(p, column=None)) for p in set_aside)
+        raise InputError(f"--series {name!r} was set aside when the file was read: {detail}")
     if not table.info:
         raise _no_series(table)
     names = ", ".join(table.info)

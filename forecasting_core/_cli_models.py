@@ -37,8 +37,8 @@ from forecasting_core._cli_writers import (
     csv_line,
     csv_rows,
     safe_cell,
-    write_csv_rows,
     write_forecast_csv,
+    write_record,
 )
 from forecasting_core._results import CAUTIONS, InputError, frequency_of
 
@@ -64,6 +64,10 @@ __all__ = [
 
 def _guard(run, args: Any) -> int:
     try:
+        # statsmodels' import adds "always" filters in front of the list: import it before
+        # the "ignore" below, so that no statsmodels warning reaches the user.
+        import statsmodels.tools.sm_exceptions  # noqa: F401
+
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             return run(args)
@@ -201,7 +205,7 @@ def _batch(args: Any) -> int:
         for r in records:
             if models is not None and rows is not None:
                 models.add(r)
-                write_csv_rows(rows, csv_rows(r) if "error" not in r else [])
+                write_record(rows, r)
             if stdout_json is not None:
                 stdout_json.add(r)
             if "error" in r:

@@ -1,7 +1,8 @@
 """Files and streams the ``forecast`` and ``batch`` subcommands write: CSV and JSON.
 
-The forecast CSV holds comment lines (source, cautions) and then the table, so that
-``pandas.read_csv(path, comment="#")`` reads it; cells are safe to open in a spreadsheet.
+The forecast CSV holds comment lines (source, cautions; each series' warnings before its rows)
+and the table, so that ``pandas.read_csv(path, comment="#")`` reads it; cells are safe to open
+in a spreadsheet.
 """
 
 from __future__ import annotations
@@ -116,6 +117,27 @@ def csv_line(cells: Sequence[str]) -> str:
     return ",".join(out) + "\r\n"
 
 
+def series_comment_lines(record: dict[str, Any]) -> list[str]:
+    """The ``#`` lines of one series: its warnings (or why it failed), before its rows.
+
+    Each reads ``# <series>: warning: <text>`` (``# <series>: failed: <text>`` for a series
+    that could not be forecast). The record's ``warnings`` hold the file check's findings for
+    the series, the comparison's and the forecast's warnings (below-zero clipping, a benchmark
+    that did better, bands too narrow on the hindcast, residuals that are not white noise).
+    """
+    name = re.sub(r"\s+", " ", str(record.get("series", ""))).strip()
+    if "error" in record:
+        return [comment_line(f"{name}: failed: {record['error']}") + "\r\n"]
+    return [comment_line(f"{name}: warning: {w}") + "\r\n" for w in record.get("warnings") or ()]
+
+
+def write_record(fh: TextIO, record: dict[str, Any]) -> None:
+    """One series' ``#`` lines (:func:`series_comment_lines`) and then its forecast rows."""
+    fh.writelines(series_comment_lines(record))
+    if "error" not in record:
+        write_csv_rows(fh, csv_rows(record))
+
+
 def write_csv_rows(fh: TextIO, rows: Iterable[Sequence[str]]) -> None:
     """Write rows with :func:`csv_line` (``fh`` opened with ``newline=""``)."""
     fh.writelines(csv_line(row) for row in rows)
@@ -126,13 +148,14 @@ def write_forecast_csv(
 ) -> None:
     """Write forecast rows after comment lines holding the source and the cautions.
 
+    Each series' warnings come as ``#`` lines just before its rows (:func:`write_record`).
     ``pandas.read_csv(path, comment="#")`` reads the table (:data:`CSV_COLUMNS`), cells with
     ``#`` included (they are quoted, see :func:`csv_line`).
     """
     with open(path, "w", newline="", encoding="utf-8") as fh:
         _forecast_csv_head(fh, source)
         for record in records:
-            write_csv_rows(fh, csv_rows(record))
+            write_record(fh, record)
 
 
 def _dump(obj: Any, out: TextIO) -> None:

@@ -80,3 +80,45 @@ def test_a_seasonal_order_on_annual_data_names_the_option_and_the_frequency(caps
     assert main([*argv, "--order", "1,1,0", "--seasonal", "1,1,1,12"]) == 2
     err = capsys.readouterr().err
     assert "--seasonal 1,1,1,12: the series is annual, so it needs no --seasonal" in err
+
+
+@pytest.mark.parametrize(
+    ("value", "pattern"),
+    [
+        ("11,3,12", r"^--order 11,3,12: p, the first number, must be an integer from 0 to 10; "
+                    r"d, the second number, must be an integer from 0 to 2; q, the third number, "
+                    r"must be an integer from 0 to 10\. Got 11, 3 and 12 instead\.$"),
+        ("1,3,12", r"^--order 1,3,12: d, the second number, .*; q, the third number, .* Got 3 and 12 instead\.$"),
+    ],
+)  # fmt: skip
+def test_every_number_out_of_range_is_named_in_one_message(value, pattern):
+    with pytest.raises(InputError, match=pattern):
+        parse_ints(value, 3, "--order", "1,1,0")
+
+
+def test_no_statsmodels_warning_reaches_the_user_of_the_command_line():
+    # A fresh process: statsmodels' first import adds "always" filters for its own warnings
+    # (ConvergenceWarning, EstimationWarning), which an earlier "ignore" must not lose to.
+    import subprocess
+    import sys
+
+    argv = ["forecast", str(LANDINGS), "--series", "hake_t", "--horizon", "3", "--order", "9,1,9"]
+    done = subprocess.run(
+        [sys.executable, "-m", "forecasting_core", *argv],
+        capture_output=True, text=True, timeout=120, cwd=ROOT,
+    )  # fmt: skip
+    assert done.returncode == 2
+    assert "Warning" not in done.stderr and "site-packages" not in done.stderr, done.stderr
+    assert done.stderr.startswith("error: ")
+
+
+def test_a_series_set_aside_for_its_frequency_is_named_as_such(tmp_path, capsys):
+    # Invented data for the reader only: one annual series, then a monthly one in the same file.
+    rows = ["series,time,value"] + [f"hake_t,{y},{1000 + 3 * (y - 1970)}" for y in range(1970, 2015)]
+    rows += [f"octopus_t,{2014 + k // 12}-{k % 12 + 1:02d},{60 + (k * 7) % 13}" for k in range(36)]
+    src = tmp_path / "mixed.csv"
+    src.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    assert main(["forecast", str(src), "--series", "octopus_t", "--horizon", "3"]) == 2
+    err = capsys.readouterr().err
+    assert "error: --series 'octopus_t' was set aside when the file was read: row 47:" in err
+    assert "months (e.g. '2014-01')" in err and "must be one of" not in err
