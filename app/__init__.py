@@ -32,8 +32,10 @@ from __future__ import annotations
 
 import functools
 import importlib
+import json
 import logging
 import os
+import sys
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
@@ -41,6 +43,7 @@ from typing import Any
 import dash
 from dash import Input, Output, State, dash_table, dcc, html
 from dash import _callback as _dash_callback
+from dash import _utils as _dash_utils
 from flask import Flask
 
 import forecasting_core as fc
@@ -96,7 +99,7 @@ _INDEX = """<!DOCTYPE html>
 #: (as Dash's ``eager_loading`` does, but without plotly.js, which only the charts need), so
 #: the browser compiles them while it waits for the layout and a table draws without waiting.
 EAGER_CHUNKS: tuple[str, ...] = (
-    "dash/dash_table/async-highlight.js",
+    "dash/dash_table/async-highlight.js",  # the table asks for it before it is ready
     "dash/dash_table/async-table.js",
     "dash/dcc/async-dropdown.js",
 )
@@ -185,7 +188,11 @@ def create_app(config: Mapping[str, Any] | None = None) -> dash.Dash:
         meta_tags=[{"name": "viewport", "content": "width=device-width, initial-scale=1"}],
         on_error=_on_error,
         # page layouts see the session's selection (the Model Bench builds its first answer in)
-        routing_callback_inputs={"selection": State(SELECTION_ID, "data")},
+        # and which page the shell was built with (see _shell_page)
+        routing_callback_inputs={
+            "selection": State(SELECTION_ID, "data"),
+            "shell_page": State(SHELL_PAGE_ID, "data"),
+        },
     )
     app.index_string = _index_string(app.config.requests_pathname_prefix)
     _attach_pages(app)
@@ -312,10 +319,13 @@ def _shell_layout() -> html.Div:
         )
         for module, path, name, step in PAGES
     ]
+    content, marker = _shell_page()
     return html.Div(
         [
             dcc.Location(id="hc-url"),
             dcc.Store(id=SELECTION_ID, storage_type="session"),
+            dcc.Store(id=SHELL_PAGE_ID, data=marker),
+            dcc.Store(id=SHELL_CONTENT_ID, data=content),
             html.A("Skip to the page content", href="#hc-main", className="hc-skip"),
             html.Header(
                 [
@@ -363,6 +373,51 @@ def _shell_layout() -> html.Div:
         ],
         className="hc-shell",
     )
+
+
+#: The stores naming the page built into the shell for a new visitor (None once routed) and
+#: holding it until it is drawn (see _shell_page).
+SHELL_PAGE_ID = "hc-shell-page"
+SHELL_CONTENT_ID = "hc-shell-content"
+
+
+def _shell_page() -> tuple[Any, dict[str, str] | None]:
+    """The page a new visitor opened, built into the shell, and the marker naming it.
+
+    Dash fills the page slot with a callback once the browser has the shell: one more round
+    trip before anything of the page shows. When the shell is fetched for a page whose module
+    has ``prefilled()`` (the Model Bench, when its first answer is cached) and the address
+    has no query, the page as a new visitor (no session selection) would get it goes into
+    the shell's :data:`SHELL_CONTENT_ID` store, and :data:`SHELL_PAGE_ID` holds
+    ``{"path": ...}``. In the browser a clientside callback puts it into the page slot for
+    a new visitor only, once the table code is ready (a table drawn before its code has
+    loaded is held back by React); the page's layout answers the router's first call for a
+    new visitor with ``no_update``. A returning session gets its own page from the router as
+    before. Returns ``(None, None)`` otherwise.
+    """
+    from urllib.parse import urlsplit
+
+    from flask import has_request_context, request
+
+    if not has_request_context() or not request.path.endswith("_dash-layout"):
+        return None, None
+    address = urlsplit(request.referrer or "")
+    if address.query or address.netloc != request.host:
+        return None, None
+    try:
+        path = "/" + (dash.strip_relative_path(address.path) or "")
+    except Exception:  # noqa: BLE001 - an address outside the app: nothing built in
+        return None, None
+    for page in dash.page_registry.values():
+        if page.get("path") != path:
+            continue
+        build = getattr(sys.modules.get(page["module"]), "prefilled", None)
+        content = build() if callable(build) else None
+        if content is None:
+            return None, None
+        # a store holds plain data: the page as the JSON the router would have sent
+        return json.loads(_dash_utils.to_json(content)), {"path": path}
+    return None, None
 
 
 def _lazy_warmers() -> html.Div:
@@ -430,6 +485,36 @@ def _register_shell_callbacks(app: dash.Dash) -> None:
             title,
             sel["series"],  # the full name when a long one is cut short with an ellipsis
         ]
+
+    # a new visitor's page built into the shell (see _shell_page), drawn once the table code
+    # is ready; the router's answer to a returning session's selection replaces nothing here
+    app.clientside_callback(
+        """
+        function(content, selection) {
+            if (!content || selection != null) return window.dash_clientside.no_update;
+            performance.mark("hc-shell-page-asked");
+            const path = window.location.pathname;
+            const table = window.dash_table && window.dash_table.DataTable;
+            return Promise.resolve(table && table._dashprivate_isLazyComponentReady).then(() => {
+                // the visitor may have gone to another page meanwhile
+                if (window.location.pathname !== path) return window.dash_clientside.no_update;
+                performance.mark("hc-shell-page-drawn");
+                return content;
+            });
+        }
+        """,
+        Output("_pages_content", "children", allow_duplicate=True),
+        Input(SHELL_CONTENT_ID, "data"),
+        State(SELECTION_ID, "data"),
+        prevent_initial_call="initial_duplicate",
+    )
+    # the page built into the shell stands only until the router's first answer
+    app.clientside_callback(
+        "function(_title) { return null; }",
+        Output(SHELL_PAGE_ID, "data"),
+        Input("_pages_store", "data"),
+        prevent_initial_call=True,
+    )
 
     @app.callback(
         [Output(f"hc-nav-{module}", "className") for module, *_ in (HOME_PAGE, *PAGES)],

@@ -46,12 +46,19 @@ from app.ui import guarded
 
 log = logging.getLogger(__name__)
 
+#: The page's address.
+PATH = "/bench"
+
 dash.register_page(
-    __name__, path="/bench", name="Model Bench", order=2, title="Model Bench \u00b7 Haulcast"
+    __name__, path=PATH, name="Model Bench", order=2, title="Model Bench \u00b7 Haulcast"
 )
 
 
-def layout(selection: Mapping[str, Any] | None = None, **_query: Any) -> Any:
+def layout(
+    selection: Mapping[str, Any] | None = None,
+    shell_page: Mapping[str, Any] | None = None,
+    **_query: Any,
+) -> Any:
     """The Model Bench page, with its first answer in it when the result cache has it.
 
     Parameters
@@ -59,8 +66,32 @@ def layout(selection: Mapping[str, Any] | None = None, **_query: Any) -> Any:
     selection : dict, optional
         The session's ``hc-selection`` as the page router saw it (``routing_callback_inputs``
         in :func:`app.create_app`); None for a new visitor.
+    shell_page : dict, optional
+        ``{"path": "/bench"}`` when the shell was built with this page in it for a new
+        visitor (:func:`prefilled`) and the router has not answered yet; then a new visitor
+        keeps that page (``no_update``: nothing is sent or drawn again).
     """
+    if (
+        selection is None
+        and not _query
+        and isinstance(shell_page, Mapping)
+        and shell_page.get("path") == PATH
+    ):
+        return no_update
     return bench_views.page(first_answer(selection))
+
+
+def prefilled() -> Any | None:
+    """The page a new visitor gets, to build into the shell; None unless its answer is cached.
+
+    See :func:`app._shell_page`: the browser then shows the candidates table with the shell,
+    without waiting for the page router's callback.
+    """
+    answer = first_answer(None)
+    if not answer:
+        log.info("Model Bench not built into the shell: the demo's first answer is not cached yet")
+        return None
+    return bench_views.page(answer)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -154,7 +185,8 @@ def first_answer(selection: Mapping[str, Any] | None) -> dict[tuple[str, str], A
     try:
         with cached_only():
             return _first_answer(selection)
-    except NotCached:
+    except NotCached as missing:
+        log.debug("No first answer in the Model Bench layout: %s not cached", missing)
         return {}
     except Exception:  # noqa: BLE001 - the callbacks answer (and show any error) instead
         log.debug("No first answer in the Model Bench layout", exc_info=True)
