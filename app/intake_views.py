@@ -127,9 +127,28 @@ def problems_view(table: fc.Table) -> Any:
     )
 
 
+def set_aside(table: fc.Table) -> dict[str, str]:
+    """Series named by an error but not read at all (e.g. a monthly one in an annual file).
+
+    Returns
+    -------
+    dict of str to str
+        Series name to the reason, the core's message from "was not read:" on.
+    """
+    out: dict[str, str] = {}
+    for p in table.errors:
+        name = p.column
+        if not name or name in table.info or name in out:
+            continue
+        reason = p.message.split("was not read:", 1)[-1].strip()
+        out[name] = reason[:1].upper() + reason[1:]
+    return out
+
+
 def summary_view(table: fc.Table) -> html.Div:
     usable = len(table.series)
-    total = len(table.info)
+    # a series set aside (not read) counts as one that cannot be used, as in the series table
+    total = len(table.info) + len(set_aside(table))
     n_err, n_warn = len(table.errors), len(table.warnings)
     return stat_row(
         [
@@ -173,6 +192,22 @@ def series_table_view(table: fc.Table) -> Any:
                 "missing": str(info.missing),
                 "status": severity_badge("ok") if usable else severity_badge("error"),
                 "_class": None if usable else "hc-row--error",
+            }
+        )
+    for name, reason in set_aside(table).items():
+        rows.append(
+            {
+                "name": [
+                    html.Strong(name),
+                    html.Div(f"Not read. {reason}", className="hc-series-note"),
+                ],
+                "unit": "\u2014",
+                "frequency": "\u2014",
+                "years": "\u2014",
+                "observations": "0",
+                "missing": "\u2014",
+                "status": severity_badge("error"),
+                "_class": "hc-row--error",
             }
         )
     if not rows:
@@ -296,7 +331,8 @@ def tests_view(report: fc.StationarityReport) -> Any:
 
 def stationarity_stats(report: fc.StationarityReport) -> html.Div:
     cards = [
-        stat_card("Differences (d)", str(report.d), "chosen by KPSS at 5%", tone="good"),
+        # the labels are shown in capitals: the letters d and D go in the values, whose case stays
+        stat_card("Differences", f"d = {report.d}", "chosen by KPSS at 5%", tone="good"),
     ]
     if report.frequency != "annual":
         strength = (
@@ -304,7 +340,7 @@ def stationarity_stats(report: fc.StationarityReport) -> html.Div:
             if report.seasonal_strength is None
             else f"seasonal strength {report.seasonal_strength:.2f}"
         )
-        cards.append(stat_card("Seasonal differences (D)", str(report.seasonal_d), strength))
+        cards.append(stat_card("Seasonal differences", f"D = {report.seasonal_d}", strength))
     cards.append(
         stat_card(
             "ADF and KPSS",

@@ -41,3 +41,37 @@ def test_transform_note_for_a_zero_reads_as_one_sentence(nile: pd.Series):
 )
 def test_errors_card_counts_the_series_the_errors_stop(n_err, unusable, expected):
     assert error_hint(n_err, unusable) == expected
+
+
+def test_series_set_aside_as_monthly_is_listed_as_not_usable_and_counted(nile: pd.Series, tmp_path):
+    # a long file: the Nile flow by year, then 24 rows of a series with monthly times (the
+    # same flow values); one file holds one frequency, so the core sets the monthly one aside
+    from app.intake_views import series_table_view, set_aside, summary_view
+
+    rows = [("nile", str(p.year), v) for p, v in nile.items()]
+    rows += [
+        ("monthly_t", f"{1950 + i // 12}-{i % 12 + 1:02d}", v) for i, v in enumerate(nile[:24])
+    ]
+    path = tmp_path / "mixed.csv"
+    pd.DataFrame(rows, columns=["series", "year", "value"]).to_csv(path, index=False)
+    table = fc.read_table(path)
+    assert "monthly_t" not in table.info
+    reasons = set_aside(table)
+    assert list(reasons) == ["monthly_t"] and "months" in reasons["monthly_t"]
+    listed = str(series_table_view(table))
+    assert "monthly_t" in listed and "Not read. " in listed
+    cards = str(summary_view(table))
+    # 1 usable of the 2 series in the file; the Errors card's count of stopped series agrees
+    assert "1 of 2" in cards and "1 series cannot be used" in cards
+
+
+def test_difference_cards_keep_d_and_D_apart_under_capitals(nile: pd.Series):
+    # the card labels are shown in capitals (CSS text-transform): the letters d and D are put
+    # in the values, whose case is kept, so "DIFFERENCES (D)" never sits beside "(D)"
+    from app.intake_views import stationarity_stats
+
+    report = fc.assess_stationarity(nile)
+    labels = [c.children[0].children for c in stationarity_stats(report).children]
+    values = [c.children[1].children for c in stationarity_stats(report).children]
+    assert labels[0] == "Differences" and values[0] == f"d = {report.d}"
+    assert all("(d)" not in lab and "(D)" not in lab for lab in labels)
