@@ -34,7 +34,26 @@ def _draft(data: Mapping[str, Any] | None, opened: Mapping[str, Any] | None, sto
             f"version {analysis.version} is published, and published analyses are never "
             "deleted. Revise it to make a new version."
         )
+    blocked = revised_by(store, analysis)
+    if blocked is not None:
+        raise fc.InputError(refusal_while_revised(analysis.version, blocked))
     return analysis
+
+
+def revised_by(store: Any, analysis: Any) -> int | None:
+    """The version number of the draft's direct revision, if a later version revises it."""
+    children = [
+        a.version for a in store.history(analysis.id) if str(a.parent_id or "") == analysis.id
+    ]
+    return min(children) if children else None
+
+
+def refusal_while_revised(version: int, child: int) -> str:
+    """Why a draft that a later version revises cannot be deleted (said before any confirm)."""
+    return (
+        f"version {version} cannot be deleted while version {child} revises it. Delete version "
+        f"{child} first, or keep both."
+    )
 
 
 def question(analysis: Any, *, on_board: bool = True) -> str:

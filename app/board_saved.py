@@ -208,7 +208,8 @@ def show_saved(
     publish = SHOW if analysis.status == "draft" and not changed else HIDE
     signoff = SHOW if analysis.status == "published" and not changed else HIDE
     label = f"Save as version {analysis.version + 1}" if changed else "Save analysis"
-    delete = SHOW if analysis.status == "draft" else HIDE
+    # a draft a later version revises is kept by the store: no Delete that would only refuse
+    delete = SHOW if analysis.status == "draft" and newer is None else HIDE
     placeholder = analysis.title or "e.g. Hake 2026 advice"
     return [panel, publish, signoff, label, hint, placeholder, delete, HIDE]
 
@@ -403,9 +404,28 @@ def sign_off(
     try:
         done = store.add_signoff(analysis.id, name=who, role=role, note=note)
     except fc.InputError as err:
-        if DUPLICATE_SIGNOFF not in str(err) or not just_signed(analysis, who, role):
+        if DUPLICATE_SIGNOFF not in str(err):
             raise
-        done = analysis  # the same sign-off sent twice: answered as the first one was
+        # the same name and role again (a repeat, or a double click): said so, nothing recorded
+        first = next(
+            (
+                s
+                for s in analysis.signoffs
+                if (s.name.casefold(), s.role.casefold()) == (who.casefold(), role.casefold())
+            ),
+            None,
+        )
+        shown = f"{first.name} ({first.role})" if first is not None else f"{who} ({role})"
+        return [
+            opened_store(analysis, sel),
+            no_update,
+            alert(
+                f"{shown} has already signed off this version.", "info", title="Already signed off"
+            ),
+            "",
+            "",
+            "",
+        ]
     # the form is cleared: the next sign-off is someone else's (the author name is not touched)
     return [
         opened_store(done, sel),

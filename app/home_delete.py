@@ -107,6 +107,11 @@ def ask(clicks: list[Any]) -> list[Any]:
         raise fc.InputError(
             f"version {analysis.version} is published, and published analyses are never deleted."
         )
+    from app.board_delete import refusal_while_revised, revised_by
+
+    blocked = revised_by(get_store(), analysis)
+    if blocked is not None:
+        raise fc.InputError(refusal_while_revised(analysis.version, blocked))
     return [analysis.id, SHOW, question(analysis, on_board=False), None]
 
 

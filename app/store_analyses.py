@@ -255,8 +255,7 @@ class AnalysesMixin:
                 )
             if found.author.casefold() != author.casefold():
                 raise fc.InputError(
-                    f"only the author of a draft can delete it: version {found.version} was "
-                    f"saved by {found.author}. Got {author!r} instead."
+                    f"only the draft's author ({found.author}) can delete it; you typed {author}."
                 )
             child = tx.execute(
                 "SELECT version FROM analyses WHERE parent_id = ? ORDER BY version LIMIT 1",

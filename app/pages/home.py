@@ -115,11 +115,16 @@ def layout(**_query: Any) -> html.Div:
     )
 
 
-def _status(analysis: Any) -> Any:
+def _status(analysis: Any, newer: int | None = None) -> Any:
+    """The status tag; a draft's has "Delete…" unless a later version (``newer``) revises it."""
     tag = html.Span(
         analysis.status, className=f"hc-tag board-status board-status--{analysis.status}"
     )
     if analysis.status != "draft":
+        return tag
+    if newer is not None:
+        # the store keeps a draft a later version revises: no Delete that would only refuse
+        tag.title = f"Version {newer} revises this draft; delete the later versions first."
         return tag
     return html.Span([tag, home_delete.delete_button(analysis)], className="home-status")
 
@@ -137,7 +142,7 @@ def _rows(items: list[Any], superseded: dict[str, int], show_stock: bool) -> lis
                 "title": dcc.Link(
                     a.title or a.series, href=saved.open_href(a), className="home-open"
                 ),
-                "status": _status(a),
+                "status": _status(a, superseded.get(a.id)),
                 "version": version,
                 "author": a.author,
                 "signoffs": str(len(a.signoffs)),

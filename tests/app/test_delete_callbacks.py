@@ -76,7 +76,7 @@ def _text(component) -> str:
         ("../../etc/passwd", "Ana", "analysis id must be 32 hexadecimal digits"),
         ("f" * 32, "Ana", "was not found on this server"),
         ("draft", "", "Your name is needed"),
-        ("draft", "Ben", "only the author of a draft can delete it"),
+        ("draft", "Ben", "only the draft's author (Ana) can delete it; you typed Ben."),
         ("published", "Ana", "published analyses are never deleted"),
     ],
 )
@@ -141,3 +141,42 @@ def test_the_confirm_question_names_the_draft_and_its_author(store, board_delete
     assert text.startswith("Delete version 1 of \u201cCod <b>draft</b>\u201d (a draft saved by Ana")
     assert text.endswith("The forecast stays on the board, unsaved.")
     assert "board" not in board_delete.question(draft, on_board=False)
+
+
+def test_board_refuses_a_revised_draft_at_once_before_any_confirm(app, store, board_delete):
+    # the store keeps a draft that a later version revises (store_analyses.delete_draft);
+    # the board says so on the first click, not after the confirm step
+    draft = _saved(store)
+    store.revise(draft.id, author="Ana", title="second try")
+    opened = {"id": draft.id, "selection": saved.selection_from_analysis(draft), "tick": 0}
+    assert board_delete.revised_by(store, draft) == 2
+    with app.server.test_request_context():
+        style, question, msg = board_delete.ask(1, None, opened)
+    text = _text(msg)
+    assert "version 1 cannot be deleted while version 2 revises it" in text
+    assert "Delete version 2 first" in text
+    assert style is question  # both no_update: no confirm step is shown
+
+
+def test_home_list_offers_no_delete_on_a_draft_a_later_version_revises(store):
+    from app.pages import home
+
+    draft = _saved(store)
+    v2 = store.revise(draft.id, author="Ana", title="second try")
+    older = _text(home._status(store.get_analysis(draft.id), 2))
+    newest = _text(home._status(v2))
+    assert "home-delete" not in older and "delete the later versions first" in older
+    assert "home-delete" in newest
+
+
+def test_a_repeated_sign_off_says_it_is_already_recorded(app, store):
+    from app import board_saved
+
+    a = _saved(store, publish=True)
+    opened = {"id": a.id, "selection": saved.selection_from_analysis(a), "tick": 0}
+    with app.server.test_request_context():
+        board_saved.sign_off(1, "Mona Ger", "manager", "", None, opened)
+        out = board_saved.sign_off(1, "mona ger", "Manager", "", None, opened)
+    assert "Mona Ger (manager) has already signed off this version." in _text(out[2])
+    assert "Signed off by" not in _text(out[2])
+    assert len(store.get_analysis(a.id).signoffs) == 1

@@ -335,7 +335,7 @@ def test_an_author_deletes_their_own_draft_after_a_confirm_step(
     page.click("#board-delete")
     page.click("#board-delete-yes")
     expect(page.locator("#board-saved-msg [role=alert]")).to_contain_text(
-        "only the author of a draft can delete it: version 1 was saved by Ana Analyst"
+        "only the draft's author (Ana Analyst) can delete it; you typed"
     )
     assert store.get_analysis(draft_id).status == "draft"
 
@@ -394,7 +394,7 @@ def test_a_draft_is_deleted_from_the_home_page_after_a_confirm_step(
     page.fill("#home-delete-name", "Ben Other")
     page.click("#home-delete-yes")
     expect(page.locator("#home-delete-msg [role=alert]")).to_contain_text(
-        "only the author of a draft can delete it"
+        "only the draft's author (Ana Analyst) can delete it; you typed Ben Other."
     )
     page.fill("#home-delete-name", "Ana Analyst")
     page.click("#home-delete-yes")
