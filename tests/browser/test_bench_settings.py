@@ -107,9 +107,56 @@ def test_fixed_d_and_a_monthly_series_after_an_annual_run(page, open_page, settl
     expect(page.locator("#bench-settings-note")).to_contain_text(
         "Horizon reset to 5 months (the default): the 6 years set for annual data"
     )
-    # d stays as chosen (it does not depend on the frequency)
-    expect(page.locator("#bench-d")).to_contain_text("0")
+    # d set by hand belongs to hake_t: back to Automatic on another series, with a note
+    expect(page.locator("#bench-settings-note")).to_contain_text(
+        "d was set by hand for hake_t; back to Automatic for squid."
+    )
+    expect(page.locator("#bench-d")).to_contain_text("Automatic")
     _wait_for_results(page, settle)
     expect(page.locator("#bench-status")).to_contain_text("monthly values")
-    expect(page.locator("#bench-status")).to_contain_text(re.compile(r"d = 0, D = \d \(d set here"))
+    expect(page.locator("#bench-status")).to_contain_text(
+        re.compile(r"d = \d, D = \d \(from the stationarity tests\)")
+    )
     screenshot(page, "bench-monthly-after-annual")
+
+
+def test_an_annual_upload_after_a_saved_monthly_analysis_opened_by_link_resets_the_horizon(
+    page, open_page, settle, upload_file, screenshot, live_app, nile
+):
+    # a saved monthly analysis, 12 months ahead, straight through the store
+    store = live_app.server.extensions["haulcast"]["store"]
+    squid = next(i for i in store.samples() if store.meta(i).filename == "vellmouth_squid_monthly.csv")
+    demo = next(a for a in store.list_analyses(status="published") if a.version == 1)
+    bench = {"search": "auto", "max_p": 1, "max_q": 1, "seasonal": True, "horizon": 12}
+    analysis = store.save_analysis(
+        dataset_id=squid,
+        series="squid",
+        settings={"transform": "auto", "bench": bench, "model": None, "reference": None, "horizon": 12},
+        model=demo.model,
+        forecast=demo.forecast,
+        author="Ana Analyst",
+        title="Squid 12 months",
+    )
+    open_page(page, f"/board?analysis={analysis.id}", settle=False)
+    expect(page.locator("#hc-context-series")).to_contain_text("squid", timeout=COMPARE_MS)
+    settle(page)
+    # then an annual file (the Nile's flow at Aswan, open data shipped by statsmodels)
+    page.locator("a[href='/intake']").first.click()
+    expect(page.locator("h1.hc-page__title")).to_have_text("Intake")
+    settle(page)
+    lines = ["year,nile"] + [f"{p.year},{v:g}" for p, v in nile.items()]
+    upload_file(page, "nile_annual.csv", ("\n".join(lines) + "\n").encode())
+    page.locator("a[href='/bench']").first.click()
+    expect(page.locator("h1.hc-page__title")).to_have_text("Model Bench")
+    expect(page.locator("#bench-horizon")).to_have_value("5")
+    expect(page.locator("#bench-settings-note")).to_contain_text(
+        "Horizon reset to 5 years (the default): the 12 months set for monthly data"
+    )
+    _wait_for_results(page, settle)
+    screenshot(page, "bench-annual-after-saved-monthly")
+    # the Board forecasts 5 years (1971-1975), not 12
+    page.locator("a[href='/board']").first.click()
+    expect(page.locator("#board-table")).to_contain_text("1975", timeout=COMPARE_MS)
+    settle(page)
+    expect(page.locator("#board-table")).not_to_contain_text("1976")
+    screenshot(page, "board-annual-after-saved-monthly")
