@@ -17,6 +17,7 @@ from typing import Any
 
 import pandas as pd
 
+from forecasting_core._hindcast_scores import better_by, mase_pair
 from forecasting_core._results import (
     CAUTIONS,
     Comparison,
@@ -111,7 +112,11 @@ def hindcast_summary(comparison: Comparison) -> dict[str, Any] | None:
 
 
 def _better_benchmarks(comparison: Comparison) -> list[str]:
-    """Warnings for benchmarks other than the last value that beat the chosen model on MASE."""
+    """Warnings for benchmarks other than the last value that did better than the chosen model.
+
+    A benchmark did better when its MASE is lower by at least 0.5% of the model's, on the
+    forecasts both made (:func:`forecasting_core._hindcast_scores.better_by`).
+    """
     h = comparison.hindcast
     mine = h.score(comparison.best.label) if h is not None else None
     if mine is None or not math.isfinite(mine.mase):
@@ -123,11 +128,11 @@ def _better_benchmarks(comparison: Comparison) -> list[str]:
         # on the forecasts both made (the pair the Bench and the Board show)
         pair = h.versus(s.model, mine.model)
         a, b = (pair[0].mase, pair[1].mase) if pair is not None else (mine.mase, s.mase)
-        if math.isfinite(a) and math.isfinite(b) and round(b, 2) < round(a, 2):
-            size = f", errors {100.0 * (1.0 - b / a):.0f}% smaller" if a > 0 else ""
+        pct = better_by(a, b)  # the one rule of the verdict, the Bench and the Board
+        if pct is not None:
             out.append(
                 f"On the hindcast the {s.model} benchmark scored a lower MASE than "
-                f"{mine.model} on the same forecasts ({b:.2f} vs {a:.2f}{size})."
+                f"{mine.model} on the same forecasts ({mase_pair(b, a)}, errors {pct}% smaller)."
             )
     return out
 

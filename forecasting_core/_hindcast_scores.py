@@ -216,23 +216,64 @@ def _same_forecasts(mine: Block, naive: Block) -> bool:
     return bool(np.allclose(a, b, rtol=1e-9, atol=0.0))
 
 
+#: A benchmark did better than the model when its MASE is lower by at least this fraction of
+#: the model's, so that the difference shows as at least 1% (half rounds up). The Bench, the
+#: Board, the verdict and the batch warnings all use this one rule (:func:`better_by`).
+BETTER_BY = 0.005
+
+
+def better_by(model_mase: float, benchmark_mase: float) -> int | None:
+    """How much smaller (percent, rounded half up) the benchmark's MASE is than the model's.
+
+    ``None`` when the benchmark did not do better by the rule of :data:`BETTER_BY` (or either
+    MASE is not finite, or the model's is 0). Both MASEs must come from the forecasts both
+    made (the pair the Bench and the Board show).
+    """
+    a, b = model_mase, benchmark_mase
+    if not (math.isfinite(a) and math.isfinite(b)) or a <= 0:
+        return None
+    share = 1.0 - b / a
+    if share < BETTER_BY - 1e-12:
+        return None
+    return max(1, int(math.floor(100.0 * share + 0.5)))
+
+
+def mase_pair(first: float, second: float) -> str:
+    """``"0.95 vs 0.99"``; with three decimals when two would show the same number
+    (``"0.986 vs 0.994"``), so a difference named as better is visible."""
+    digits = 2 if f"{first:.2f}" != f"{second:.2f}" else 3
+    return f"{first:.{digits}f} vs {second:.{digits}f}"
+
+
 def _better_benchmarks_clause(
-    chosen: str, naive: str, paired: Sequence[tuple[SkillScore, SkillScore]]
+    chosen: str, naive: str, paired: Sequence[tuple[SkillScore, SkillScore]], *, beat: bool = True
 ) -> str:
-    """' But the X benchmark did better ...' for benchmarks beside the last value that beat
-    ``chosen`` on MASE (to the two decimals shown) on the forecasts both made; '' if none."""
+    """The benchmarks beside the last value that did better than ``chosen`` (:func:`better_by`)
+    on the forecasts both made; '' if none.
+
+    After a model that beat (or matched) the last value: " But on the same past forecasts the
+    X benchmark (errors N% smaller, MASE b vs a) did better than <chosen>." After one that did
+    not (``beat=False``): " The X benchmark also did better (errors N% smaller, MASE b vs a)."
+    """
     better = []
     for a, b in paired:
         if a.model != chosen or b.kind != "benchmark" or b.model == naive:
             continue
-        if math.isfinite(a.mase) and math.isfinite(b.mase) and round(b.mase, 2) < round(a.mase, 2):
-            pct = 100.0 * (1.0 - b.mase / a.mase) if a.mase > 0 else math.nan
-            size = f"errors {pct:.0f}% smaller, " if math.isfinite(pct) and pct >= 0.5 else ""
-            better.append(f"the {b.model} benchmark ({size}MASE {b.mase:.2f} vs {a.mase:.2f})")
+        pct = better_by(a.mase, b.mase)
+        if pct is not None:
+            better.append((b.model, f"errors {pct}% smaller, MASE {mase_pair(b.mase, a.mase)}"))
     if not better:
         return ""
-    names = better[0] if len(better) == 1 else ", ".join(better[:-1]) + " and " + better[-1]
-    verb = "did" if len(better) == 1 else "each did"
+    if not beat:
+        if len(better) == 1:
+            name, size = better[0]
+            return f" The {name} benchmark also did better ({size})."
+        parts = [f"the {name} benchmark ({size})" for name, size in better]
+        names = ", ".join(parts[:-1]) + " and " + parts[-1]
+        return f" {names[0].upper()}{names[1:]} also did better."
+    parts = [f"the {name} benchmark ({size})" for name, size in better]
+    names = parts[0] if len(parts) == 1 else ", ".join(parts[:-1]) + " and " + parts[-1]
+    verb = "did" if len(parts) == 1 else "each did"
     return f" But on the same past forecasts {names} {verb} better than {chosen}."
 
 
@@ -280,7 +321,8 @@ def verdict(
         text = (
             f"{chosen} did not beat the last value on MASE {where} ({a:.2f} vs {b:.2f}, {worse})."
         )
-    text += _better_benchmarks_clause(chosen, naive, paired)
+    beat = "did not beat" not in text
+    text += _better_benchmarks_clause(chosen, naive, paired, beat=beat)
     mine_skips = [s for s in skipped if s.startswith(chosen + " ")]
     if mine_skips:
         text += (

@@ -291,3 +291,49 @@ def test_a_file_without_problems_adds_no_data_warnings(inline_run):
     records, _ = inline_run
     for r in records[:2]:
         assert not any(w.startswith("File check:") for w in r["warnings"])
+
+
+class _PairedHindcast:
+    """A stand-in Hindcast: the chosen model and benchmarks with fixed MASEs on shared forecasts."""
+
+    def __init__(self, model_mase: float, benchmarks: dict[str, float]) -> None:
+        from forecasting_core._model_results import SkillScore
+
+        nan = float("nan")
+
+        def score(name: str, kind: str, mase: float) -> SkillScore:
+            return SkillScore(name, kind, 10, 30, nan, nan, mase, nan, nan, nan, nan)
+
+        self.scores = [score("ARIMA(1,0,0) with constant", "arima", model_mase)] + [
+            score(n, "benchmark", m) for n, m in benchmarks.items()
+        ]
+
+    def score(self, name: str):
+        return next((s for s in self.scores if s.model == name), None)
+
+    def versus(self, other: str, model: str):
+        return self.score(model), self.score(other)  # (model's score, other's), as Hindcast
+
+
+@pytest.mark.parametrize(
+    ("benchmarks", "named"),
+    [
+        # bank #4 scallop in the trial: drift 0.986 vs 0.994 shows as "1% worse" on the Bench
+        ({"last value + drift": 0.986, "long-run mean": 0.95},
+         ["(0.986 vs 0.994, errors 1% smaller)", "(0.95 vs 0.99, errors 4% smaller)"]),
+        ({"last value + drift": 0.990}, []),  # 0.4% smaller: shows as 0%, not named
+        ({"last value": 0.5}, []),  # the last value is the verdict's own comparison
+    ],
+)  # fmt: skip
+def test_a_benchmark_is_named_when_its_mase_is_half_a_percent_lower(benchmarks, named):
+    # Our rule, the same as the verdict's (forecasting_core._hindcast_scores.better_by).
+    from types import SimpleNamespace
+
+    from forecasting_core._batch import _better_benchmarks
+
+    best = SimpleNamespace(label="ARIMA(1,0,0) with constant")
+    h = _PairedHindcast(0.994, benchmarks)
+    notes = _better_benchmarks(SimpleNamespace(best=best, hindcast=h))
+    assert len(notes) == len(named)
+    for note, figures in zip(notes, named, strict=True):
+        assert note.endswith(f"on the same forecasts {figures}.")

@@ -21,6 +21,8 @@ import forecasting_core._forecast as forecast_mod
 import forecasting_core._search as search_mod
 from forecasting_core._benchmarks import fit_benchmark, fit_benchmarks
 from forecasting_core._hindcast import interval_score, naive_scale, run_hindcast
+from forecasting_core._hindcast_scores import _better_benchmarks_clause, better_by, mase_pair
+from forecasting_core._model_results import SkillScore
 from forecasting_core._results import Candidate, InputError, TransformSpec
 
 Y8 = pd.Series(
@@ -183,8 +185,9 @@ def test_rejected_refit_is_recorded_skipped_and_named_in_the_verdict(monkeypatch
 
 def test_verdict_names_a_benchmark_that_did_better_on_the_same_forecasts():
     # White noise around 100 (seeded): the long-run mean must beat last value + drift (for a
-    # stationary series the mean is the better forecast: common practice), and the verdict about
-    # last value + drift must say so, with the figures of the paired scores.
+    # stationary series the mean is the better forecast: common practice). Last value + drift
+    # does not beat the last value here, so the verdict adds "The long-run mean benchmark also
+    # did better (...)" with the figures of the paired scores.
     from forecasting_core._benchmarks import fit_benchmark
 
     rng = np.random.default_rng(3)
@@ -192,15 +195,72 @@ def test_verdict_names_a_benchmark_that_did_better_on_the_same_forecasts():
     drift, mean = fit_benchmark(y, "drift"), fit_benchmark(y, "mean")
     h = run_hindcast(y, [drift, mean], horizon=3)
     a, b = h.versus("long-run mean", "last value + drift")
-    assert b.mase < a.mase
-    assert (
-        f"But on the same past forecasts the long-run mean benchmark (errors "
-        f"{100 * (1 - b.mase / a.mase):.0f}% smaller, MASE {b.mase:.2f} vs {a.mase:.2f}) did better "
-        "than last value + drift."
-    ) in h.verdict
+    assert b.mase < a.mase * 0.995
+    assert "last value + drift did not beat the last value" in h.verdict
+    assert h.verdict.endswith(
+        f"The long-run mean benchmark also did better (errors "
+        f"{100 * (1 - b.mase / a.mase):.0f}% smaller, MASE {b.mase:.2f} vs {a.mase:.2f})."
+    )
+    assert "But on the same past forecasts" not in h.verdict
     # and nothing of the kind when the chosen model is the best
     h2 = run_hindcast(y, [mean, drift], horizon=3)
     assert "did better" not in h2.verdict
+
+
+def _score(model: str, kind: str, mase: float) -> SkillScore:
+    nan = float("nan")
+    return SkillScore(model, kind, 10, 30, nan, nan, mase, nan, nan, nan, nan)
+
+
+@pytest.mark.parametrize(
+    ("model_mase", "bench_mase", "expected"),
+    [
+        (0.994, 0.986, 1),  # 0.8% smaller: shows as 1%, so it is named (was missed at 2 decimals)
+        (1.0, 0.995, 1),  # exactly 0.5% smaller: the threshold counts
+        (1.0, 0.996, None),  # 0.4% smaller: would show as 0%, not named
+        (0.99, 0.95, 4),  # 4.0% smaller
+        (0.95, 0.95, None),
+        (0.90, 0.95, None),  # worse
+        (0.0, 0.0, None),
+        (float("nan"), 0.5, None),
+        (1.0, float("inf"), None),
+    ],
+)
+def test_a_benchmark_did_better_when_its_mase_is_lower_by_half_a_percent(
+    model_mase, bench_mase, expected
+):
+    # Our rule (one for the verdict, the batch warnings, the Bench and the Board): lower by at
+    # least 0.5% of the model's MASE, so that the difference shows as at least 1%.
+    assert better_by(model_mase, bench_mase) == expected
+
+
+@pytest.mark.parametrize(
+    ("beat", "benchmarks", "clause"),
+    [
+        (True, [("long-run mean", 0.95)],
+         " But on the same past forecasts the long-run mean benchmark (errors 5% smaller, "
+         "MASE 0.95 vs 1.00) did better than ARIMA(1,0,0)."),
+        (False, [("long-run mean", 0.95)],
+         " The long-run mean benchmark also did better (errors 5% smaller, MASE 0.95 vs 1.00)."),
+        (False, [("last value + drift", 0.996), ("long-run mean", 0.9)],
+         " The long-run mean benchmark also did better (errors 10% smaller, MASE 0.90 vs 1.00)."),
+        (False, [("last value + drift", 0.994), ("long-run mean", 0.9)],
+         " The last value + drift benchmark (errors 1% smaller, MASE 0.99 vs 1.00) and the "
+         "long-run mean benchmark (errors 10% smaller, MASE 0.90 vs 1.00) also did better."),
+        (True, [("last value", 0.5)], ""),  # the last value has its own sentence
+    ],
+)  # fmt: skip
+def test_the_better_benchmark_clause_reads_after_a_beat_and_after_no_beat(
+    beat, benchmarks, clause
+):
+    model = _score("ARIMA(1,0,0)", "arima", 1.0)
+    paired = [(model, _score(name, "benchmark", m)) for name, m in benchmarks]
+    assert _better_benchmarks_clause("ARIMA(1,0,0)", "last value", paired, beat=beat) == clause
+
+
+def test_mase_pair_shows_three_decimals_only_when_two_would_look_equal():
+    assert mase_pair(0.95, 0.99) == "0.95 vs 0.99"
+    assert mase_pair(0.986, 0.994) == "0.986 vs 0.994"
 
 
 def test_failed_origin_is_left_out_of_both_sides_of_every_comparison(monkeypatch):
