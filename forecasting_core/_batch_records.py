@@ -170,7 +170,7 @@ def forecast_record(
     if h is not None and h.verdict and "did not beat" in h.verdict and h.verdict not in warnings:
         warnings.append(h.verdict)
     score = h.score(best.label) if h is not None else None
-    if score is not None and (caution := score.coverage_warning()):
+    if score is not None and (caution := score.coverage_warning(comparison.frequency)):
         warnings.append(caution)
     warnings.extend(w for w in _better_benchmarks(comparison) if w not in warnings)
     diag = comparison.diagnostics

@@ -219,18 +219,21 @@ class SkillScore:
     def to_dict(self) -> dict[str, Any]:
         return _clean(self.__dict__)
 
-    def coverage_warning(self) -> str | None:
+    def coverage_warning(self, frequency: str = "annual") -> str | None:
         """A plain caution when the bands held the outcome far less often than stated.
 
         Our rule: the 80% band held fewer than 65% of the outcomes, or the 95% band fewer than
         85%, over at least 10 hindcast forecasts. Fewer forecasts say too little to warn on.
+        ``frequency`` ("annual", "quarterly" or "monthly") names the periods: "On past years"
+        (quarters, months).
         """
         if self.forecasts < 10 or math.isnan(self.coverage80) or math.isnan(self.coverage95):
             return None
         if self.coverage80 >= 65.0 and self.coverage95 >= 85.0:
             return None
         return (
-            f"On past years the bands of {self.model} were too narrow: the 80% band held the "
+            f"On past {dict(annual='years', quarterly='quarters', monthly='months').get(frequency, 'periods')} "
+            f"the bands of {self.model} were too narrow: the 80% band held the "
             f"outcome {self.coverage80:.0f}% of the time and the 95% band {self.coverage95:.0f}% "
             f"({self.forecasts} hindcast forecasts). Read the ranges as optimistic."
         )

@@ -445,3 +445,18 @@ def test_paired_scores_equal_the_brute_force_pairing_with_and_without_failed_ori
     got = _paired_scores(table, models)
     want = [_reference_pair(table, a, b) for i, a in enumerate(models) for b in models[i + 1 :]]
     assert got == tuple(want)
+
+
+@pytest.mark.parametrize(
+    ("frequency", "start"),
+    [
+        ("annual", "On past years the bands of ARIMA(1,0,0) were too narrow"),
+        ("quarterly", "On past quarters the bands of ARIMA(1,0,0) were too narrow"),
+        ("monthly", "On past months the bands of ARIMA(1,0,0) were too narrow"),
+    ],
+)
+def test_coverage_warning_names_the_periods_of_the_series_frequency(frequency, start):
+    from forecasting_core import SkillScore
+
+    score = SkillScore("ARIMA(1,0,0)", "arima", 10, 50, 1.0, 1.0, 1.0, 60.0, 80.0, 1.0, 1.0)
+    assert score.coverage_warning(frequency).startswith(start)
