@@ -172,6 +172,29 @@ def _differencing(y: pd.Series, spec: TransformSpec, seasonal: bool) -> tuple[in
     return d, big_d if seasonal else 0, verdict
 
 
+def _by_hand_note(d: int | None, big_d: int | None, auto_d: int, auto_big_d: int) -> list[str]:
+    """A warning when d or D set by hand differs from what the stationarity tests chose.
+
+    "d = 2 was set by hand; the stationarity tests chose d = 0. AICc is not comparable across
+    different d, so judge the models on the hindcast." (D likewise; both in one sentence.)
+    """
+    pairs = [
+        (name, mine, auto)
+        for name, mine, auto in (("d", d, auto_d), ("D", big_d, auto_big_d))
+        if mine is not None and int(mine) != int(auto)
+    ]
+    if not pairs:
+        return []
+    verb = "was" if len(pairs) == 1 else "were"
+    mine = " and ".join(f"{n} = {v}" for n, v, _ in pairs)
+    auto = " and ".join(f"{n} = {a}" for n, _, a in pairs)
+    names = " and ".join(n for n, _, _ in pairs)
+    return [
+        f"{mine} {verb} set by hand; the stationarity tests chose {auto}. AICc is not "
+        f"comparable across different {names}, so judge the models on the hindcast."
+    ]
+
+
 def compare_models(
     y: pd.Series,
     horizon: int = 5,
@@ -284,8 +307,12 @@ def compare_models(
     stationarity_note = None
     if forced is None and (d is None or (seasonal and D is None)):
         auto_d, auto_big_d, stationarity_note = _differencing(y, spec, bool(seasonal))
+        warnings_.extend(_by_hand_note(d, D, auto_d, auto_big_d))
         d = auto_d if d is None else d
         D = auto_big_d if D is None else D  # noqa: N806
+    elif forced is None:  # d and D both set by hand: the tests still say what they would choose
+        auto_d, auto_big_d, _ = _differencing(y, spec, bool(seasonal))
+        warnings_.extend(_by_hand_note(d, D, auto_d, auto_big_d))
     D = D or 0  # noqa: N806
     constants = [False, True] if constant is None else [bool(constant)]
     if search == "auto":

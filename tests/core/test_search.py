@@ -239,3 +239,39 @@ def test_sample_data_generating_order_is_found_or_beaten(sample_dir, file, name,
     # tests/core/test_fast_path.py), so its optimum can sit that much higher.
     slack = 1e-3 if seasonal_order is not None else 1e-6
     assert comp.best.aicc <= true.aicc + slack, (comp.best.label, true.label)
+
+
+@pytest.mark.parametrize("extra", [0, 1])
+def test_d_set_by_hand_against_the_tests_choice_gets_a_plain_warning(nile, extra):
+    # The Nile flows (statsmodels' dataset); what the tests choose comes from the core's own
+    # assess_stationarity, so only the comparison is checked here. Common practice: AICc values
+    # of models with different d are not comparable (the likelihoods are of different data).
+    auto = fc.assess_stationarity(nile).d
+    mine = (auto + extra) % 3
+    c = fc.compare_models(nile, horizon=3, transform="none", d=mine, max_p=1, max_q=1, hindcast=False)
+    notes = [w for w in c.warnings if "set by hand" in w]
+    if mine == auto:
+        assert notes == []
+    else:
+        assert notes == [
+            f"d = {mine} was set by hand; the stationarity tests chose d = {auto}. AICc is not "
+            "comparable across different d, so judge the models on the hindcast."
+        ]
+
+
+@pytest.mark.parametrize(
+    ("d", "big_d", "auto", "note"),
+    [
+        (None, 0, (0, 1), "D = 0 was set by hand; the stationarity tests chose D = 1. AICc is not "
+                          "comparable across different D, so judge the models on the hindcast."),
+        (2, 0, (0, 1), "d = 2 and D = 0 were set by hand; the stationarity tests chose d = 0 and "
+                       "D = 1. AICc is not comparable across different d and D, so judge the models "
+                       "on the hindcast."),
+        (1, 1, (1, 1), None),
+        (None, None, (2, 1), None),
+    ],
+)  # fmt: skip
+def test_the_by_hand_note_names_only_the_differences_that_disagree(d, big_d, auto, note):
+    from forecasting_core._search import _by_hand_note
+
+    assert _by_hand_note(d, big_d, *auto) == ([note] if note else [])
