@@ -197,11 +197,44 @@ def blank_figure(height: int = 260) -> go.Figure:
 def value_axis_title(series_name: str, unit: str | None) -> str:
     """Axis title for values on the original scale, e.g. ``hake landings (t)``.
 
-    A name that already carries its unit in brackets (``Landings (t)``) is left as it is.
+    A name that already carries its unit in brackets (``Landings (t)``) is left as it is. A
+    title longer than :data:`AXIS_TITLE_CHARS` is broken onto lines (``<br>``) after a space,
+    ``_`` or ``-``: plotly never wraps an axis title, and a long one was cut off at the ends of
+    a chart a few hundred pixels high.
     """
+    return wrap_title(with_unit(series_name, unit))
+
+
+def with_unit(series_name: str, unit: str | None) -> str:
+    """``hake landings (t)`` on one line: the unit once, after the name (for labels)."""
     if not unit or series_name.rstrip().endswith((f"({unit})", f"[{unit}]")):
         return series_name
     return f"{series_name} ({unit})"
+
+
+#: Longest line of a vertical axis title (characters), about 220 px at the charts' 13 px font.
+AXIS_TITLE_CHARS = 30
+
+
+def wrap_title(text: str, width: int = AXIS_TITLE_CHARS) -> str:
+    """``text`` broken with ``<br>`` into lines of at most ``width`` characters where it can be.
+
+    Breaks go after a space, ``_`` or ``-`` (kept at the end of the line); a piece longer than
+    ``width`` with none of them stays whole.
+    """
+    if len(text) <= width:
+        return text
+    pieces = re.findall(r"[^ _-]*[ _-]?", text)
+    lines: list[str] = []
+    line = ""
+    for piece in (p for p in pieces if p):
+        if line and len(line) + len(piece.rstrip()) > width:
+            lines.append(line.rstrip())
+            line = ""
+        line += piece
+    if line:
+        lines.append(line.rstrip())
+    return "<br>".join(lines)
 
 
 def graph_config(filename: str) -> dict[str, Any]:

@@ -224,6 +224,26 @@ REFERENCE_MARGIN_PX = 72
 #: Top margin (px) that keeps a figure's text clear of plotly's modebar.
 MODEBAR_PX = 34
 
+#: Every modebar button of a cartesian plotly chart (the names plotly's layout.modebar.remove
+#: accepts):
+#: removed from a chart that is only a note.
+NOTE_ONLY_REMOVE = [
+    "toImage",
+    "zoom2d",
+    "pan2d",
+    "select2d",
+    "lasso2d",
+    "zoomIn2d",
+    "zoomOut2d",
+    "autoScale2d",
+    "resetScale2d",
+    "resetViews",
+    "toggleSpikelines",
+    "toggleHover",
+    "hoverCompareCartesian",
+    "sendChartToCloud",
+]
+
 
 def prob_below_figure(forecast: Forecast, *, height: int = 240) -> go.Figure:
     """Chance (percent) that each period ahead falls below the reference level.
@@ -268,8 +288,10 @@ def prob_below_figure(forecast: Forecast, *, height: int = 240) -> go.Figure:
     fig.update_layout(showlegend=False, hovermode="closest", margin={"t": 16})
     if forecast.reference is None:
         # the note sits below the modebar's row (plotly draws it top right on hover, about
-        # 30 px high), which covered it when centred in the whole 90 px
-        fig.update_layout(margin={"t": MODEBAR_PX, "b": 4})
+        # 30 px high), which covered it when centred in the whole 90 px; with nothing to zoom
+        # or save the modebar has no buttons either, so neither it nor a button's hover label
+        # ("Zoom") can cover the note
+        fig.update_layout(margin={"t": MODEBAR_PX, "b": 4}, modebar={"remove": NOTE_ONLY_REMOVE})
     return fig
 
 

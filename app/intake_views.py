@@ -13,7 +13,7 @@ from typing import Any
 from dash import dcc, html
 
 import forecasting_core as fc
-from app.figures import value_axis_title
+from app.figure_style import with_unit
 from app.state import TRANSFORM_LABELS
 from app.ui import alert, fmt_number, html_table, severity_badge, stat_card, stat_row
 
@@ -32,7 +32,7 @@ def dataset_options(store: Any, uploads: list[str]) -> list[dict[str, Any]]:
 def series_options(table: fc.Table) -> list[dict[str, Any]]:
     options = []
     for name, info in table.info.items():
-        unit = value_axis_title(name, info.unit)[len(name) :]
+        unit = with_unit(name, info.unit)[len(name) :]
         if info.usable and name in table.series:
             options.append(
                 {

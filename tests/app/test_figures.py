@@ -204,3 +204,43 @@ def test_the_first_bench_layout_holds_empty_boxes_for_its_charts():
     graph = bench_views.graph("bench-hindcast-graph", figures.blank_figure(380).to_plotly_json())
     assert graph.id == "bench-hindcast-graph"
     assert graph.style == {"height": "380px"}
+
+
+@pytest.mark.parametrize(
+    ("name", "unit", "lines"),
+    [
+        # plotly never wraps an axis title (plotly.js draws it as one SVG text line unless it
+        # holds <br>): a long one is broken after "_", "-" or a space
+        (
+            "northern_shelf_brillfin_commercial_landings_t",
+            "t",
+            ["northern_shelf_brillfin_", "commercial_landings_t (t)"],
+        ),
+        (
+            "a very long name with spaces in it for the chart",
+            "kg",
+            ["a very long name with spaces", "in it for the chart (kg)"],
+        ),
+        ("hake_t", "t", ["hake_t (t)"]),
+    ],
+)
+def test_long_axis_titles_are_broken_onto_lines(name, unit, lines):
+    title = figures.value_axis_title(name, unit)
+    assert title.split("<br>") == lines
+    assert all(len(line) <= 30 for line in lines)
+
+
+def test_chance_chart_without_a_reference_has_no_modebar_over_its_note(comparison):
+    fc_ = __import__("forecasting_core")
+    plain = fc_.make_forecast(comparison.best, horizon=5, levels=(50, 80, 95))
+    fig = figures.prob_below_figure(plain)
+    assert fig.layout.annotations[0].text == "No reference level set yet."
+    # every button gone (plotly's layout.modebar.remove), so no button or its hover label
+    # ("Zoom") sits over the note
+    assert {"toImage", "zoom2d", "pan2d", "zoomIn2d", "resetScale2d"} <= set(
+        fig.layout.modebar.remove
+    )
+    with_ref = figures.prob_below_figure(
+        fc_.make_forecast(comparison.best, horizon=5, levels=(50, 80, 95), reference=800.0)
+    )
+    assert not with_ref.layout.modebar.remove
