@@ -21,6 +21,7 @@ if TYPE_CHECKING:  # the names as type checkers see them; at run time they load 
     from forecasting_core._diagnostics import check_residuals
     from forecasting_core._forecast import make_forecast
     from forecasting_core._hindcast import run_hindcast
+    from forecasting_core._hindcast_scores import better_by
     from forecasting_core._record import score_forecast_record
     from forecasting_core._results import (
         CAUTIONS,
@@ -66,6 +67,7 @@ _LAZY = {
     "check_residuals": "_diagnostics",
     "make_forecast": "_forecast",
     "run_hindcast": "_hindcast",
+    "better_by": "_hindcast_scores",
     "score_forecast_record": "_record",
     **dict.fromkeys(
         (
@@ -144,6 +146,7 @@ __all__ = [
     "__version__",
     "assess_stationarity",
     "back_transform",
+    "better_by",
     "boxcox_mle_lambda",
     "check_residuals",
     "choose_transform",
