@@ -1,7 +1,8 @@
 """The Forecast Board's downloads: the forecast CSV and the standalone HTML report.
 
 Both describe the saved analysis being looked at (unless its settings changed since), with its
-sign-offs; the report also carries the forecast record of this series when there is one.
+sign-offs; both carry the forecast record of this series when there is one (the CSV as
+``# record:`` lines).
 """
 
 from __future__ import annotations
@@ -42,6 +43,7 @@ def download_csv(
     if not n:
         raise PreventUpdate
     state = board_state(saved.overlay(data, opened), reference)
+    past = _record(state["selection"])
     text = export.forecast_csv(
         state["forecast"],
         state["comparison"],
@@ -51,6 +53,9 @@ def download_csv(
         analysis=export_analysis(state),
         data=series_notes(state),
         differences=_differences(state),
+        record=past.record if past is not None else None,
+        record_scored_on=past.scored_on if past is not None else "",
+        record_newer=past.newer if past is not None else False,
     )
     name = f"{safe_name(state['forecast'].series_name)}_forecast.csv"
     return [dcc.send_string(text, name, type="text/csv"), None]

@@ -22,7 +22,7 @@ import plotly.graph_objects as go
 
 from app.export_settings import settings_rows
 from app.figures import graph_config
-from app.record_report import record_html
+from app.record_report import record_html, record_lines
 from app.report_parts import (
     REPORT_CSS,
     analysis_html,
@@ -182,6 +182,9 @@ def forecast_csv(
     analysis: Mapping[str, Any] | None = None,
     data: Sequence[str] = (),
     differences: str = "",
+    record: ForecastRecord | None = None,
+    record_scored_on: str = "",
+    record_newer: bool = False,
 ) -> str:
     """The forecast table as CSV text with a commented header.
 
@@ -191,7 +194,9 @@ def forecast_csv(
     board shows for this forecast (:func:`app.wording.specific_notes`: ``hindcast:``,
     ``caution:``, ``residuals:``, ``warning:`` lines, and ``data:`` lines for ``data``, the
     notes on the series' data from :func:`app.wording.data_notes`); ``differences`` (when given,
-    e.g. "d = 0 (set on the Model Bench)") is a ``differences:`` line. Then one row per step: ``time, step,
+    e.g. "d = 0 (set on the Model Bench)") is a ``differences:`` line. With ``record`` (the
+    board's forecast record, as the HTML report has it), ``record:`` lines say how past
+    forecasts did (:func:`app.record_report.record_lines`). Then one row per step: ``time, step,
     mean, median, lo{level}, hi{level}, ..., prob_below_reference`` (probability 0..1, empty
     without a reference level). Every cell goes through :func:`neutralise_cell`.
 
@@ -214,6 +219,10 @@ def forecast_csv(
     header += [f"caution: {c}" for c in (forecast.cautions or CAUTIONS)]
     # the board's own cautions for this forecast (hindcast, bands, residuals, data warnings)
     header += [f"{kind}: {text}" for kind, text in specific_notes(forecast, comparison, data)]
+    if record is not None:
+        header += [
+            f"record: {line}" for line in record_lines(record, record_scored_on, record_newer)
+        ]
     for line in header:
         buf.write(_comment_line(line) + "\r\n")
     writer = csv.writer(buf)

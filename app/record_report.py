@@ -117,6 +117,18 @@ def coverage_lines(record: fc.ForecastRecord) -> list[str]:
     return lines
 
 
+def record_lines(record: fc.ForecastRecord, scored_on: str = "", newer: bool = False) -> list[str]:
+    """The record as plain lines for the CSV's ``# record:`` lines, as the report says it.
+
+    The lead (which forecasts, against which data), the headline, the caveat when there is
+    one, then :func:`coverage_lines` (inside each band, the MASE in words, what was scored).
+    """
+    lines = [record_lead(record, scored_on, newer), record.headline()]
+    if record.caveat:
+        lines.append(f"Read with care: {record.caveat}")
+    return lines + coverage_lines(record)
+
+
 def _source_line(analysis: Mapping[str, Any], past: fc.PastForecastScore) -> str:
     when = str(analysis.get("published_at") or "")[:10]
     who = analysis.get("published_by") or analysis.get("author") or ""

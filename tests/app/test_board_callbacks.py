@@ -9,6 +9,7 @@ The callback modules are imported after ``create_app`` (their registrations go t
 
 from __future__ import annotations
 
+import io
 import json
 
 import pandas as pd
@@ -74,3 +75,31 @@ def test_a_published_forecast_opened_by_its_link_is_scored_on_the_newest_data(ap
         "newest data on the server for this series: vellmouth_landings.csv (data to 2025)" in text
     )
     assert f"/board?analysis={hake.id}" in text
+
+
+def test_csv_of_a_published_forecast_carries_its_record_as_the_report_does(app, store):
+    # the demo's published hake forecast opened by its link: the HTML report has "How past
+    # forecasts did"; the CSV says the same in '# record:' lines (headline, bands, MASE)
+    from app import board_exports, board_saved
+    from app.record_report import coverage_lines
+
+    hake = next(
+        a
+        for a in store.list_analyses(status="published", series="hake_t")
+        if a.settings.get("demo_record")
+    )
+    opened = board_saved.opened_store(hake)
+    with app.server.test_request_context():
+        csv_file, alert = board_exports.download_csv(1, None, None, opened)
+        past = board_exports._record(opened["selection"])
+    assert alert is None and past is not None
+    lines = csv_file["content"].splitlines()
+    record = [line[len("# record: ") :] for line in lines if line.startswith("# record: ")]
+    assert record, "no record lines"
+    assert record[1] == past.record.headline().replace('"', "'")
+    assert any(line.startswith("Inside the 80% band: ") for line in record)
+    assert any(line.startswith("MASE of past forecasts: ") for line in record)
+    assert len([line for line in coverage_lines(past.record)]) <= len(record)
+    # still read back as the forecast table
+    back = pd.read_csv(io.StringIO(csv_file["content"]), comment="#")
+    assert list(back.columns[:2]) == ["time", "step"]
