@@ -51,7 +51,7 @@ def upload_message(store: Any, dataset_id: str) -> html.Div:
     meta = store.meta(dataset_id)
     table = store.load_table(dataset_id)
     usable = len(table.series)
-    total = len(table.info)
+    total = len(table.info) + len(set_aside(table))  # as the cards and the series table
     n_err, n_warn = len(table.errors), len(table.warnings)
     text = (
         f"Read {meta.filename}: {total} series, {usable} usable; "

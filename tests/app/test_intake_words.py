@@ -64,6 +64,17 @@ def test_series_set_aside_as_monthly_is_listed_as_not_usable_and_counted(nile: p
     # 1 usable of the 2 series in the file; the Errors card's count of stopped series agrees
     assert "1 of 2" in cards and "1 series cannot be used" in cards
 
+    class _Store:  # the two store calls the upload message makes
+        def meta(self, _id):
+            return type("Meta", (), {"filename": "mixed.csv"})()
+
+        def load_table(self, _id):
+            return table
+
+    from app.intake_views import upload_message
+
+    assert "Read mixed.csv: 2 series, 1 usable; 1 error" in str(upload_message(_Store(), "x"))
+
 
 def test_difference_cards_keep_d_and_D_apart_under_capitals(nile: pd.Series):
     # the card labels are shown in capitals (CSS text-transform): the letters d and D are put
