@@ -169,9 +169,11 @@ def test_home_list_offers_no_delete_on_a_draft_a_later_version_revises(store):
     assert "home-delete" in newest
 
 
-def test_a_repeated_sign_off_says_it_is_already_recorded(app, store):
+def test_a_repeated_sign_off_says_it_is_already_recorded(app, store, monkeypatch):
     from app import board_saved
 
+    # a repeat later than a double click's second request (board_saved.REPEAT_SECONDS)
+    monkeypatch.setattr(board_saved, "REPEAT_SECONDS", 0.0)
     a = _saved(store, publish=True)
     opened = {"id": a.id, "selection": saved.selection_from_analysis(a), "tick": 0}
     with app.server.test_request_context():
@@ -179,4 +181,17 @@ def test_a_repeated_sign_off_says_it_is_already_recorded(app, store):
         out = board_saved.sign_off(1, "mona ger", "Manager", "", None, opened)
     assert "Mona Ger (manager) has already signed off this version." in _text(out[2])
     assert "Signed off by" not in _text(out[2])
+    assert len(store.get_analysis(a.id).signoffs) == 1
+
+
+def test_the_second_click_of_a_double_click_is_answered_as_the_first(app, store):
+    from app import board_saved
+
+    a = _saved(store, publish=True)
+    opened = {"id": a.id, "selection": saved.selection_from_analysis(a), "tick": 0}
+    with app.server.test_request_context():
+        first = board_saved.sign_off(1, "Mona Ger", "manager", "", None, opened)
+        second = board_saved.sign_off(1, "Mona Ger", "manager", "", None, opened)
+    assert "Signed off by Mona Ger (manager)." in _text(first[2])
+    assert "Signed off by Mona Ger (manager)." in _text(second[2])
     assert len(store.get_analysis(a.id).signoffs) == 1
