@@ -14,6 +14,7 @@ import pandas as pd
 import plotly.graph_objects as go
 from plotly.subplots import make_subplots
 
+from app.figure_style import wrap_title
 from app.figures import period_x, periods_x, series_frequency
 from app.ui import FONT_FAMILY, PALETTE
 from forecasting_core import StationarityReport, TransformSpec
@@ -151,13 +152,16 @@ def series_figure(
 
 
 def transform_axis_title(series_name: str, spec: TransformSpec) -> str:
-    """``log(hake_t)``, ``Box-Cox(hake_t), lambda 0.31`` or the name itself."""
+    """``log(hake_t)``, ``Box-Cox(hake_t), lambda 0.31`` or the name itself.
+
+    A long title is broken onto lines (:func:`app.figure_style.wrap_title`).
+    """
     if spec.name == "log":
-        return f"log({series_name})"
+        return wrap_title(f"log({series_name})")
     if spec.name == "boxcox":
         lam = f", \u03bb = {spec.lam:.2f}" if spec.lam is not None else ""
-        return f"Box-Cox({series_name}){lam}"
-    return series_name
+        return wrap_title(f"Box-Cox({series_name}){lam}")
+    return wrap_title(series_name)
 
 
 def _correlogram_for(report: StationarityReport, d: int):

@@ -244,3 +244,13 @@ def test_chance_chart_without_a_reference_has_no_modebar_over_its_note(compariso
         fc_.make_forecast(comparison.best, horizon=5, levels=(50, 80, 95), reference=800.0)
     )
     assert not with_ref.layout.modebar.remove
+
+
+def test_long_transformed_axis_title_is_broken_onto_lines():
+    # the Intake preview's title, e.g. log(northern_shelf_brillfin_commercial_landings_t)
+    from app.intake_figures import transform_axis_title
+
+    log = type("Spec", (), {"name": "log", "lam": None})()  # what the title reads of a spec
+    title = transform_axis_title("northern_shelf_brillfin_commercial_landings_t", log)
+    assert title == "log(northern_shelf_brillfin_<br>commercial_landings_t)"
+    assert transform_axis_title("hake_t", log) == "log(hake_t)"
