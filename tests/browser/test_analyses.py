@@ -405,3 +405,20 @@ def test_a_draft_is_deleted_from_the_home_page_after_a_confirm_step(
     expect(rows).to_have_count(1)
     expect(rows.first).to_contain_text("Home published")
     assert draft_id not in {a.id for a in store.list_analyses(status="draft")}
+
+
+def test_a_draft_a_later_version_revises_offers_no_delete(new_page, open_page, settle, live_app):
+    # the store keeps a draft while a later version revises it: the board offers no Delete
+    # that would only refuse after the confirm step; the later version still has one
+    store = live_app.server.extensions["haulcast"]["store"]
+    v1 = _saved_demo(store, f"Revised draft {uuid.uuid4().hex[:8]}", publish=False)
+    v2 = store.revise(v1, author="Ana Analyst", title="second try").id
+    page = new_page()
+    open_page(page, f"/board?analysis={v1}", settle=False)
+    _wait_board(page, settle)
+    expect(page.locator("#board-saved-state")).to_have_text("draft")
+    expect(page.locator("#board-delete-box")).to_be_hidden()
+    open_page(page, f"/board?analysis={v2}", settle=False)
+    _wait_board(page, settle)
+    expect(page.locator("#board-saved-version")).to_have_text("version 2")
+    expect(page.locator("#board-delete-box")).to_be_visible()
