@@ -9,7 +9,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
-from forecasting_core import Comparison, Forecast, SeriesInfo, SkillScore
+from forecasting_core import Comparison, Forecast, SeriesInfo, SkillScore, better_by
 
 #: The benchmark the chosen model is measured against in the summary.
 LAST_VALUE = "last value"
@@ -142,18 +142,13 @@ def hindcast_sentence(comparison: Comparison | None, model: str) -> str:
     return f"{text} {better}" if better else text
 
 
-#: A benchmark is named as better when its MASE is lower by at least this share (the model's
-#: MASE is at least 0.5% above it, so the Benchmarks table shows it as at least "1% worse").
-BETTER_BY = 0.005
-
-
 def better_benchmarks(comparison: Comparison | None, model: str) -> list[tuple[str, float, float]]:
     """Benchmarks other than the last value with a lower hindcast MASE than ``model``.
 
     Each is compared with ``model`` on the forecasts both made (``Hindcast.versus``; its own
-    scores when the hindcast has no pairs). A benchmark counts when ``model``'s MASE is at
-    least :data:`BETTER_BY` (0.5%) above it: the Benchmarks table then shows the model as at
-    least "1% worse".
+    scores when the hindcast has no pairs). A benchmark counts by the core's one rule
+    (:func:`forecasting_core.better_by`: its MASE lower by at least 0.5% of the model's, so
+    the Benchmarks table shows the model as at least "1% worse"), as the Bench's verdict.
 
     Returns
     -------
@@ -170,9 +165,15 @@ def better_benchmarks(comparison: Comparison | None, model: str) -> list[tuple[s
         pair = hc.versus(s.model, model)
         mine, theirs = pair if pair is not None and pair[0].forecasts else (hc.score(model), s)
         a, b = float(theirs.mase), float(mine.mase)
-        if math.isfinite(a) and math.isfinite(b) and a > 0 and b / a - 1.0 >= BETTER_BY:
+        if better_by(b, a) is not None:
             out.append((s.model, a, b))
     return sorted(out, key=lambda t: t[1])
+
+
+def mase_pair(first: float, second: float) -> str:
+    """``"0.95 vs 0.99"``; three decimals when two would show the same number (as the Bench)."""
+    digits = 2 if f"{first:.2f}" != f"{second:.2f}" else 3
+    return f"{first:.{digits}f} vs {second:.{digits}f}"
 
 
 def benchmark_sentence(comparison: Comparison | None, model: str, also: bool = False) -> str:
@@ -188,11 +189,10 @@ def benchmark_sentence(comparison: Comparison | None, model: str, also: bool = F
         return ""
 
     def size(a: float, b: float) -> str:
-        pct = 100 * (1 - a / b)
-        return f"{pct:.0f}%" if pct >= 0.5 else "less than 1%"
+        return f"{better_by(b, a)}%"
 
     parts = [
-        f"the {label} benchmark (errors {size(a, b)} smaller, MASE {a:.2f} vs {b:.2f})"
+        f"the {label} benchmark (errors {size(a, b)} smaller, MASE {mase_pair(a, b)})"
         for label, a, b in found
     ]
     advice = (
@@ -204,7 +204,7 @@ def benchmark_sentence(comparison: Comparison | None, model: str, also: bool = F
     if also:
         also_parts = [
             f"the {label} benchmark also did better (errors {size(a, b)} smaller, MASE "
-            f"{a:.2f} vs {b:.2f})"
+            f"{mase_pair(a, b)})"
             for label, a, b in found
         ]
         joined = "; ".join(also_parts)

@@ -171,3 +171,14 @@ def test_model_that_beat_the_last_value_hears_but_and_a_concrete_step(comparison
     assert sentence.endswith(
         "consider using that benchmark's forecast, or check why the model does worse."
     )
+
+
+def test_a_benchmark_better_by_less_than_a_hundredth_shows_three_decimals(comparison):
+    # the trial's scallop: drift 0.986 vs the model's 0.994 would read "0.99 vs 0.99"
+    best = comparison.best.label
+    fixed = _with_mase(_with_mase(comparison, best, 0.994), "last value + drift", 0.986)
+    fixed = _with_mase(_with_mase(fixed, "long-run mean", 5.0), "last value", 1.2)
+    sentence = hindcast_sentence(fixed, best)
+    assert "the last value + drift benchmark (errors 1% smaller, MASE 0.986 vs 0.994)" in sentence
+    # the same rule as the core's verdict (forecasting_core.better_by)
+    assert fc.better_by(0.994, 0.986) == 1
