@@ -110,7 +110,18 @@ def _index_string(prefix: str) -> str:
     tags = "\n            ".join(
         f'<script src="{prefix}_dash-component-suites/{chunk}"></script>' for chunk in EAGER_CHUNKS
     )
-    return _INDEX.replace("<!--chunks-->", tags)
+    return _INDEX.replace("<!--chunks-->", tags + "\n            " + _TABLE_FIRST)
+
+
+#: Runs the table chunk's code at once, while the browser waits for the shell (Dash would
+#: run it when the first table is drawn, after the shell). 7559 is the table module of
+#: dash_table 7.4 (its loader: ``Promise.all([n.e(254), n.e(214)]).then(n.bind(n, 7559))``);
+#: another version may number it otherwise: then this does nothing and the table's code
+#: runs when Dash asks for it, as before.
+_TABLE_FIRST = """<script>try {
+                (self.webpackChunkdash_table = self.webpackChunkdash_table || []).push(
+                    [["hc-table-first"], {}, function (require) { require(7559); }]);
+            } catch (e) {}</script>"""
 
 
 def _defaults() -> dict[str, Any]:
