@@ -90,7 +90,9 @@ def _score(comparison: Comparison | None, model: str) -> SkillScore | None:
 def band_caution(comparison: Comparison | None, model: str) -> str | None:
     """The core's caution when ``model``'s bands held far less often than stated on past years."""
     score = _score(comparison, model)
-    return score.coverage_warning() if score is not None else None
+    if score is None:
+        return None
+    return score.coverage_warning(comparison.frequency)  # "On past months ..." when monthly
 
 
 def hindcast_sentence(comparison: Comparison | None, model: str) -> str:

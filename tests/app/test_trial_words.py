@@ -182,3 +182,20 @@ def test_a_benchmark_better_by_less_than_a_hundredth_shows_three_decimals(compar
     assert "the last value + drift benchmark (errors 1% smaller, MASE 0.986 vs 0.994)" in sentence
     # the same rule as the core's verdict (forecasting_core.better_by)
     assert fc.better_by(0.994, 0.986) == 1
+
+
+def test_band_caution_names_the_series_periods(comparison):
+    # the core's rule (SkillScore.coverage_warning): the 80% band held under 65% of at least
+    # 10 forecasts; made to hold 40% of 50, on a comparison said to be monthly
+    best = comparison.best.label
+    hc = comparison.hindcast
+
+    def narrow(s: fc.SkillScore) -> fc.SkillScore:
+        return dataclasses.replace(s, coverage80=40.0, forecasts=50) if s.model == best else s
+
+    monthly = dataclasses.replace(
+        comparison,
+        frequency="monthly",
+        hindcast=dataclasses.replace(hc, scores=tuple(narrow(s) for s in hc.scores)),
+    )
+    assert wording.band_caution(monthly, best).startswith("On past months the bands")
