@@ -88,6 +88,7 @@ _INDEX = """<!DOCTYPE html>
             {%scripts%}
             <!--chunks-->
             {%renderer%}
+            <!--after-->
         </footer>
     </body>
 </html>
@@ -110,18 +111,19 @@ def _index_string(prefix: str) -> str:
     tags = "\n            ".join(
         f'<script src="{prefix}_dash-component-suites/{chunk}"></script>' for chunk in EAGER_CHUNKS
     )
-    return _INDEX.replace("<!--chunks-->", tags + "\n            " + _TABLE_FIRST)
+    return _INDEX.replace("<!--chunks-->", tags).replace("<!--after-->", _TABLE_FIRST)
 
 
-#: Runs the table chunk's code at once, while the browser waits for the shell (Dash would
-#: run it when the first table is drawn, after the shell). 7559 is the table module of
+#: Runs the table chunk's code while the browser waits for the shell (just after Dash has
+#: started and asked for it; Dash would run it when the first table is drawn, after the
+#: shell). 7559 is the table module of
 #: dash_table 7.4 (its loader: ``Promise.all([n.e(254), n.e(214)]).then(n.bind(n, 7559))``);
 #: another version may number it otherwise: then this does nothing and the table's code
 #: runs when Dash asks for it, as before.
-_TABLE_FIRST = """<script>try {
+_TABLE_FIRST = """<script>setTimeout(function () { try {
                 (self.webpackChunkdash_table = self.webpackChunkdash_table || []).push(
                     [["hc-table-first"], {}, function (require) { require(7559); }]);
-            } catch (e) {}</script>"""
+            } catch (e) {} }, 0);</script>"""
 
 
 def _defaults() -> dict[str, Any]:
