@@ -249,12 +249,12 @@ def hindcast_results() -> html.Div:
                     className="hc-grid bench-grid--hc",
                 ),
                 html.P(
-                    "Each line starts at an origin year and shows what the model forecast from "
-                    "the data up to then; the dark line is what happened. Click 'last value' in "
-                    "the legend to compare.",
+                    "Each line starts at an origin (a past year, quarter or month) and shows what "
+                    "the model forecast from the data up to then; the dark line is what happened. "
+                    "Click 'last value' in the legend to compare.",
                     className="hc-figure-note",
                 ),
-                lead="Past years replayed with a rolling origin: fit on the data up to each year, "
+                lead="The past replayed with a rolling origin: fit on the data up to each origin, "
                 "forecast ahead, compare with what happened.",
             ),
             section(
