@@ -90,34 +90,12 @@ def _need(key: str, have: int, need: int, what: str) -> None:
         )
 
 
-def fit_benchmark(y: pd.Series, key: str, spec: TransformSpec | str = "none") -> Benchmark:
-    """Fit one benchmark method.
+def sigma2_and_drift(key: str, z: np.ndarray, m: int) -> tuple[float, float | None]:
+    """(sigma2, drift) of benchmark ``key`` on transformed values ``z`` (NaN for gaps).
 
-    Parameters
-    ----------
-    y : pandas.Series
-        Original-scale values on an annual, quarterly or monthly PeriodIndex; gaps are NaN.
-    key : {"naive", "drift", "mean", "seasonal_naive"}
-        ``seasonal_naive`` is only for quarterly and monthly data.
-    spec : TransformSpec or str
-        Transform of the values; a string is resolved with ``choose_transform``.
-
-    Returns
-    -------
-    Benchmark
-        ``sigma2`` is the residual variance on the transformed scale (see the module notes for
-        gaps); ``drift`` the slope per period (drift only).
-
-    Raises
-    ------
-    InputError
-        Unknown key, seasonal benchmark on annual data, or too few observations.
+    ``m`` is the season length in periods (1 for annual data). Shared by :func:`fit_benchmark`
+    and the hindcast's array refits, so both give the same numbers.
     """
-    if key not in LABELS:
-        raise InputError(f"benchmark must be one of {', '.join(LABELS)}. Got {key!r} instead.")
-    m = period_length(y)
-    spec = _resolve_spec(y, spec)
-    z = _transformed(y, spec)
     obs = _observed_positions(z)
     drift: float | None = None
     if key == "naive":
@@ -149,6 +127,38 @@ def fit_benchmark(y: pd.Series, key: str, spec: TransformSpec | str = "none") ->
                 f"seasons. Got {len(seasons_seen)} instead."
             )
         sigma2 = float(np.sum(e**2) / len(e))
+    return sigma2, drift
+
+
+def fit_benchmark(y: pd.Series, key: str, spec: TransformSpec | str = "none") -> Benchmark:
+    """Fit one benchmark method.
+
+    Parameters
+    ----------
+    y : pandas.Series
+        Original-scale values on an annual, quarterly or monthly PeriodIndex; gaps are NaN.
+    key : {"naive", "drift", "mean", "seasonal_naive"}
+        ``seasonal_naive`` is only for quarterly and monthly data.
+    spec : TransformSpec or str
+        Transform of the values; a string is resolved with ``choose_transform``.
+
+    Returns
+    -------
+    Benchmark
+        ``sigma2`` is the residual variance on the transformed scale (see the module notes for
+        gaps); ``drift`` the slope per period (drift only).
+
+    Raises
+    ------
+    InputError
+        Unknown key, seasonal benchmark on annual data, or too few observations.
+    """
+    if key not in LABELS:
+        raise InputError(f"benchmark must be one of {', '.join(LABELS)}. Got {key!r} instead.")
+    m = period_length(y)
+    spec = _resolve_spec(y, spec)
+    z = _transformed(y, spec)
+    sigma2, drift = sigma2_and_drift(key, z, m)
     return Benchmark(
         key=key, label=LABELS[key], sigma2=sigma2, drift=drift, transform=spec, series=y
     )

@@ -197,43 +197,6 @@ def _label(model: Candidate | Benchmark) -> str:
     return model.label
 
 
-def _bench_fit(key: str, z: np.ndarray, m: int) -> tuple[float, float | None]:
-    """(sigma2, drift) of :func:`fit_benchmark` on transformed values ``z`` (same numbers)."""
-    obs = _benchmarks._observed_positions(z)
-    need = _benchmarks._need
-    drift: float | None = None
-    if key == "naive":
-        e = _benchmarks._lag_differences(z, 1)
-        need(key, len(e), 1, "pair of consecutive observed periods")
-        sigma2 = float(np.sum(e**2) / len(e))
-    elif key == "drift":
-        e = _benchmarks._lag_differences(z, 1)
-        need(key, len(e), 2, "pairs of consecutive observed periods")
-        first, last = obs[0], obs[-1]
-        drift = float((z[last] - z[first]) / (last - first))
-        sigma2 = float(np.sum((e - drift) ** 2) / (len(e) - 1))
-    elif key == "mean":
-        zo = z[obs]
-        need(key, len(zo), 2, "observed values")
-        sigma2 = float(np.sum((zo - zo.mean()) ** 2) / (len(zo) - 1))
-    else:
-        if m == 1:
-            raise InputError(
-                "the 'same season last year' benchmark needs quarterly or monthly data. "
-                "Got annual data instead."
-            )
-        e = _benchmarks._lag_differences(z, m)
-        need(key, len(e), 1, f"pair of observed values {m} periods apart")
-        seasons_seen = {int(p) % m for p in obs}
-        if len(seasons_seen) < m:
-            raise InputError(
-                f"the 'same season last year' benchmark needs a value in every one of the {m} "
-                f"seasons. Got {len(seasons_seen)} instead."
-            )
-        sigma2 = float(np.sum(e**2) / len(e))
-    return sigma2, drift
-
-
 def _bench_step(
     model: Benchmark, z_train: np.ndarray, steps: int, method: str, m: int
 ) -> tuple[np.ndarray, np.ndarray]:
@@ -245,7 +208,7 @@ def _bench_step(
     if method == "fixed":
         s2, drift = model.sigma2, model.drift
     else:
-        s2, drift = _bench_fit(model.key, z_train, m)
+        s2, drift = _benchmarks.sigma2_and_drift(model.key, z_train, m)
     z = z_train
     n = len(z)
     obs = _benchmarks._observed_positions(z)
